@@ -1,0 +1,107 @@
+//! Seeded extractors behind one trait.
+//!
+//! Every extractor is *planned once* for its sizes (and backend) and then run
+//! on many blocks: [`Extractor::extract`] takes one input block and a seed and
+//! writes the output without allocating (scratch space lives in the plan and
+//! is reused). When many blocks share a seed, [`Extractor::with_seed`] binds
+//! it once so that seed-dependent work (an aligned copy, its FFT spectrum) is
+//! done once.
+//!
+//! The definitions of the functions computed here, down to the bit, are in
+//! `spec/conventions.md`; each extractor has a slow, obviously correct twin in
+//! [`reference`] that the tests compare it with.
+
+use crate::bits::Bits;
+use std::sync::Mutex;
+
+/// A seeded extractor `Ext: {0,1}^n x {0,1}^d -> {0,1}^m`, planned for fixed
+/// n, m and d.
+pub trait Extractor: Send + Sync {
+    /// Name of the construction as used on the command line
+    /// (`toeplitz`, `modified-toeplitz`, ...).
+    fn name(&self) -> &'static str;
+    /// Input length n in bits.
+    fn input_bits(&self) -> usize;
+    /// Output length m in bits.
+    fn output_bits(&self) -> usize;
+    /// Seed length d in bits.
+    fn seed_bits(&self) -> usize;
+    /// Extracts one block.
+    ///
+    /// # Panics
+    /// If `input`, `seed` or `out` does not have the planned length (a caller
+    /// bug, reported with expected and actual lengths).
+    fn extract(&self, input: &Bits, seed: &Bits, out: &mut Bits);
+    /// Binds a seed for many blocks; seed-dependent precomputation happens
+    /// here, once.
+    fn with_seed<'a>(&'a self, seed: &'a Bits) -> Box<dyn SeededExtractor + 'a>;
+}
+
+/// An extractor with its seed bound (see [`Extractor::with_seed`]).
+pub trait SeededExtractor: Send + Sync {
+    /// Extracts one block with the bound seed.
+    fn extract(&self, input: &Bits, out: &mut Bits);
+}
+
+/// Binds a seed without precomputation (for extractors that need none).
+pub struct Unprepared<'a, E: ?Sized> {
+    ext: &'a E,
+    seed: &'a Bits,
+}
+
+impl<'a, E: Extractor + ?Sized> Unprepared<'a, E> {
+    /// Wraps `ext` and `seed`.
+    pub fn new(ext: &'a E, seed: &'a Bits) -> Self {
+        check_len("seed", ext.seed_bits(), seed.len());
+        Unprepared { ext, seed }
+    }
+}
+
+impl<E: Extractor + ?Sized> SeededExtractor for Unprepared<'_, E> {
+    fn extract(&self, input: &Bits, out: &mut Bits) {
+        self.ext.extract(input, self.seed, out)
+    }
+}
+
+/// A pool of scratch buffers, so that `&self` plans can run on several
+/// threads at once: each call takes a buffer (allocating only the first time
+/// a thread needs one) and gives it back.
+#[derive(Default)]
+pub struct ScratchPool<T> {
+    free: Mutex<Vec<T>>,
+}
+
+impl<T> ScratchPool<T> {
+    /// An empty pool.
+    pub fn new() -> Self {
+        ScratchPool {
+            free: Mutex::new(Vec::new()),
+        }
+    }
+
+    /// Runs `f` with a buffer from the pool (made by `make` if none is free).
+    pub fn with<R>(&self, make: impl FnOnce() -> T, f: impl FnOnce(&mut T) -> R) -> R {
+        let taken = self.free.lock().unwrap_or_else(|p| p.into_inner()).pop();
+        let mut buf = taken.unwrap_or_else(make);
+        let r = f(&mut buf);
+        self.free
+            .lock()
+            .unwrap_or_else(|p| p.into_inner())
+            .push(buf);
+        r
+    }
+}
+
+/// Panics with expected and actual lengths when they differ (caller bug).
+#[inline]
+pub fn check_len(what: &str, expected: usize, actual: usize) {
+    if expected != actual {
+        length_mismatch(what, expected, actual)
+    }
+}
+
+#[cold]
+#[inline(never)]
+fn length_mismatch(what: &str, expected: usize, actual: usize) -> ! {
+    panic!("{what}: expected {expected} bits, got {actual}")
+}

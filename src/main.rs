@@ -1,0 +1,8 @@
+//! The `sluice` command line. All maths lives in the library; this binary
+//! parses options, runs the library and reports.
+
+mod cli;
+
+fn main() -> std::process::ExitCode {
+    cli::main()
+}
