@@ -12,6 +12,7 @@
 //! `'0'`/`'1'` with white space ignored, and hexadecimal digits of the packed
 //! bytes. See [`io`] for readers that stream blocks from files.
 
+pub mod digest;
 mod error;
 pub mod io;
 
