@@ -17,3 +17,22 @@ pub fn clmul64(a: u64, b: u64) -> (u64, u64) {
     }
     (lo, hi)
 }
+
+/// Base case of the word-level middle product, accumulating:
+/// `out[2r], out[2r+1] ^= XOR_j clmul(a[r + b - 1 - j], x[j])` for `r, j < b`,
+/// with `b = x.len()`, `a.len() == 2b - 1`, `out.len() == 2b`.
+pub fn mp_base(a: &[u64], x: &[u64], out: &mut [u64]) {
+    let b = x.len();
+    debug_assert_eq!(a.len(), 2 * b - 1);
+    debug_assert_eq!(out.len(), 2 * b);
+    for r in 0..b {
+        let (mut lo, mut hi) = (0u64, 0u64);
+        for (j, &xj) in x.iter().enumerate() {
+            let (l, h) = clmul64(a[r + b - 1 - j], xj);
+            lo ^= l;
+            hi ^= h;
+        }
+        out[2 * r] ^= lo;
+        out[2 * r + 1] ^= hi;
+    }
+}
