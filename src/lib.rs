@@ -6,7 +6,7 @@
 //! certification modules). This crate holds the pure maths (bit strings,
 //! carry-less products, the extractors) and, above it, the I/O that runs them.
 //!
-//! ```ignore
+//! ```
 //! use sluice::bits::Bits;
 //! use sluice::extract::{Extractor, Toeplitz};
 //!

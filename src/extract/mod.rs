@@ -11,8 +11,101 @@
 //! `spec/conventions.md`; each extractor has a slow, obviously correct twin in
 //! [`reference`] that the tests compare it with.
 
+pub mod modified_toeplitz;
+pub mod reference;
+pub mod toeplitz;
+
+pub use modified_toeplitz::ModifiedToeplitz;
+pub use toeplitz::Toeplitz;
+
 use crate::bits::Bits;
+use crate::gf2::Backend;
+use std::fmt;
 use std::sync::Mutex;
+
+/// How a hashing extractor computes its product.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+pub enum Engine {
+    /// Word-level Karatsuba middle product on a carry-less backend.
+    Clmul(Backend),
+    /// Floating-point FFT convolution (sizes covered by its rounding bound).
+    Fft,
+}
+
+impl Engine {
+    /// The fastest carry-less backend of this CPU.
+    pub fn detect() -> Engine {
+        Engine::Clmul(Backend::detect())
+    }
+
+    /// Every engine this CPU can run, slowest first.
+    pub fn all_supported() -> Vec<Engine> {
+        let mut v: Vec<Engine> = Backend::all_supported().into_iter().map(Engine::Clmul).collect();
+        v.push(Engine::Fft);
+        v
+    }
+
+    /// Name as used on the command line (`portable`, `pclmul`, `vpclmul`,
+    /// `fft`).
+    pub fn name(self) -> &'static str {
+        match self {
+            Engine::Clmul(b) => b.name(),
+            Engine::Fft => "fft",
+        }
+    }
+
+    /// Parses a name given by [`name`](Self::name), or `auto`.
+    pub fn from_name(s: &str) -> Option<Engine> {
+        Some(match s {
+            "auto" => Engine::detect(),
+            "portable" => Engine::Clmul(Backend::Portable),
+            "pclmul" => Engine::Clmul(Backend::Pclmul),
+            "vpclmul" => Engine::Clmul(Backend::Vpclmul),
+            "fft" => Engine::Fft,
+            _ => return None,
+        })
+    }
+}
+
+impl fmt::Display for Engine {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+/// Why an extractor cannot be planned.
+#[derive(Debug, thiserror::Error, PartialEq, Eq)]
+pub enum Error {
+    /// n = 0.
+    #[error("{family}: the input length must be at least 1 bit")]
+    EmptyInput {
+        /// The family.
+        family: &'static str,
+    },
+    /// m outside the family's range.
+    #[error("{family}: output length {m} is outside 1..={max} for an input of {n} bits")]
+    OutputLength {
+        /// The family.
+        family: &'static str,
+        /// Input bits.
+        n: usize,
+        /// Requested output bits.
+        m: usize,
+        /// Largest allowed.
+        max: usize,
+    },
+    /// The engine does not run on this CPU.
+    #[error("engine {0} is not supported on this CPU")]
+    Unsupported(Engine),
+    /// The FFT rounding bound does not cover the size.
+    #[error("the FFT engine does not cover n = {n}, m = {m} (its rounding bound would not rule out a flipped bit); use a carry-less engine")]
+    FftTooLarge {
+        /// Input bits.
+        n: usize,
+        /// Output bits.
+        m: usize,
+    },
+}
 
 /// A seeded extractor `Ext: {0,1}^n x {0,1}^d -> {0,1}^m`, planned for fixed
 /// n, m and d.

@@ -69,6 +69,7 @@ impl std::fmt::Debug for FftWindow {
 }
 
 /// The seed's spectrum, computed once per seed.
+#[derive(Clone, Default)]
 pub struct FftSeed {
     spectrum: Vec<Complex<f64>>,
 }
@@ -107,6 +108,16 @@ impl FftWindow {
         (n + m - 1).next_power_of_two().max(2)
     }
 
+    /// Input bits n.
+    pub fn input_bits(&self) -> usize {
+        self.n
+    }
+
+    /// Output bits m.
+    pub fn output_bits(&self) -> usize {
+        self.m
+    }
+
     /// Transform length.
     pub fn len(&self) -> usize {
         self.len
@@ -130,11 +141,22 @@ impl FftWindow {
     /// Transforms a seed of `n + m - 1` bits (words, bits beyond zero).
     pub fn prepare(&self, seed: &[u64]) -> FftSeed {
         let mut s = self.make_scratch();
+        let mut out = FftSeed {
+            spectrum: Vec::new(),
+        };
+        self.prepare_into(seed, &mut out, &mut s);
+        out
+    }
+
+    /// As [`prepare`](Self::prepare), reusing `into` and `s` (no allocation
+    /// once they have the plan's sizes).
+    pub fn prepare_into(&self, seed: &[u64], into: &mut FftSeed, s: &mut FftScratch) {
         load_bits(seed, self.n + self.m - 1, &mut s.real);
         self.fwd
             .process_with_scratch(&mut s.real, &mut s.spec, &mut s.fft_scratch)
             .expect("buffer sizes come from the plan");
-        FftSeed { spectrum: s.spec }
+        into.spectrum.clear();
+        into.spectrum.extend_from_slice(&s.spec);
     }
 
     /// Computes the window for input words `x` into `out` (`ceil(m/64)`

@@ -44,7 +44,7 @@ pub struct ToeplitzWindow {
 
 /// A seed laid out for one [`ToeplitzWindow`] (see
 /// [`ToeplitzWindow::prepare`]).
-#[derive(Clone)]
+#[derive(Clone, Default)]
 pub struct PreparedSeed {
     /// The zero-padded diagonal sequence the tiles read.
     a: Vec<u64>,
@@ -126,10 +126,23 @@ impl ToeplitzWindow {
     /// # Panics
     /// If `seed` has fewer words than `n + m - 1` bits need.
     pub fn prepare(&self, seed: &[u64]) -> PreparedSeed {
+        let mut p = PreparedSeed {
+            a: Vec::new(),
+            shifted: Vec::new(),
+        };
+        self.prepare_into(seed, &mut p);
+        p
+    }
+
+    /// As [`prepare`](Self::prepare), reusing the buffers of `into` (no
+    /// allocation once they have the plan's sizes).
+    pub fn prepare_into(&self, seed: &[u64], into: &mut PreparedSeed) {
         let seed_bits = self.seed_bits();
         assert!(seed.len() >= words_for(seed_bits), "seed: want {} words", words_for(seed_bits));
         let sw = words_for(seed_bits + self.p);
-        let mut shifted = vec![0u64; sw];
+        let shifted = &mut into.shifted;
+        shifted.clear();
+        shifted.resize(sw, 0);
         for (i, &w) in seed[..words_for(seed_bits)].iter().enumerate() {
             let w = if i == words_for(seed_bits) - 1 { w & tail_mask(seed_bits) } else { w };
             if self.p == 0 {
@@ -144,17 +157,15 @@ impl ToeplitzWindow {
         // a[t] = S'[t + shift] with shift = (K0 + 1 - B) - (cols_pad - B).
         let shift = (self.k0 + 1) as isize - self.cols_pad as isize;
         let alen = self.rows_pad + self.cols_pad - 1;
-        let a = (0..alen)
-            .map(|t| {
-                let idx = t as isize + shift;
-                if idx >= 0 && (idx as usize) < sw {
-                    shifted[idx as usize]
-                } else {
-                    0
-                }
-            })
-            .collect();
-        PreparedSeed { a, shifted }
+        into.a.clear();
+        into.a.extend((0..alen).map(|t| {
+            let idx = t as isize + shift;
+            if idx >= 0 && (idx as usize) < sw {
+                shifted[idx as usize]
+            } else {
+                0
+            }
+        }));
     }
 
     /// Computes the window for input words `x` (n bits, bits beyond zero)
