@@ -15,7 +15,11 @@ pub fn report_error(e: &anyhow::Error) -> ExitCode {
     }
     let mut msg = format!("error: {e}");
     for cause in e.chain().skip(1) {
-        msg.push_str(&format!("\n  caused by: {cause}"));
+        let text = cause.to_string();
+        // Errors that already quote their cause are not repeated.
+        if !msg.contains(&text) {
+            msg.push_str(&format!("\n  caused by: {text}"));
+        }
     }
     let _ = writeln!(std::io::stderr(), "{msg}");
     ExitCode::from(2)
@@ -46,4 +50,97 @@ pub fn progress(total: u64, what: &str) -> indicatif::ProgressBar {
     );
     pb.set_message(what.to_string());
     pb
+}
+
+/// File format names on the command line.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum FormatArg {
+    /// Packed bytes, eight bits per byte.
+    Packed,
+    /// One character '0' or '1' per bit; white space ignored.
+    Ascii,
+    /// Hexadecimal digits of the packed bytes.
+    Hex,
+}
+
+impl From<FormatArg> for sluice::bits::Format {
+    fn from(f: FormatArg) -> Self {
+        match f {
+            FormatArg::Packed => sluice::bits::Format::Packed,
+            FormatArg::Ascii => sluice::bits::Format::Ascii,
+            FormatArg::Hex => sluice::bits::Format::Hex,
+        }
+    }
+}
+
+/// Bit order names on the command line.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum OrderArg {
+    /// First bit in the most significant position of each byte (default).
+    Msb,
+    /// First bit in the least significant position.
+    Lsb,
+}
+
+impl From<OrderArg> for sluice::bits::BitOrder {
+    fn from(o: OrderArg) -> Self {
+        match o {
+            OrderArg::Msb => sluice::bits::BitOrder::Msb,
+            OrderArg::Lsb => sluice::bits::BitOrder::Lsb,
+        }
+    }
+}
+
+/// How bit files are read and written.
+#[derive(clap::Args, Clone, Debug)]
+pub struct FileFormatArgs {
+    /// Format of the input (and of the output unless --output-format is given)
+    #[arg(long, value_enum, default_value = "packed")]
+    pub format: FormatArg,
+    /// Bit order inside bytes of the input (and output unless
+    /// --output-bit-order is given)
+    #[arg(long = "bit-order", value_enum, default_value = "msb")]
+    pub bit_order: OrderArg,
+    /// Format of the output, if different from the input's
+    #[arg(long = "output-format", value_enum)]
+    pub output_format: Option<FormatArg>,
+    /// Bit order of the output, if different from the input's
+    #[arg(long = "output-bit-order", value_enum)]
+    pub output_bit_order: Option<OrderArg>,
+}
+
+impl FileFormatArgs {
+    /// The input file description.
+    pub fn input(&self, path: &std::path::Path) -> sluice::pipeline::BitFile {
+        sluice::pipeline::BitFile {
+            path: path.to_path_buf(),
+            format: self.format.into(),
+            order: self.bit_order.into(),
+        }
+    }
+
+    /// The output file description.
+    pub fn output(&self, path: &std::path::Path) -> sluice::pipeline::BitFile {
+        sluice::pipeline::BitFile {
+            path: path.to_path_buf(),
+            format: self.output_format.unwrap_or(self.format).into(),
+            order: self.output_bit_order.unwrap_or(self.bit_order).into(),
+        }
+    }
+}
+
+/// The cautions printed once by commands whose output protects something.
+pub const CAUTIONS: &str = "\
+caution: the output is only as good as the min-entropy claim for the input and the
+  assumptions of the certification behind it; sluice cannot check either.
+caution: a seed must be independent of the source and of any adversary, and must be used
+  only on raw data fixed before the seed was disclosed; each reuse adds its error.
+caution: whether the error figure suffices for keys, lotteries or audits is for the
+  standards and evaluators that apply to your application to decide.";
+
+/// Prints [`CAUTIONS`] on standard error unless `quiet`.
+pub fn print_cautions(quiet: bool) {
+    if !quiet {
+        let _ = writeln!(std::io::stderr(), "{CAUTIONS}");
+    }
 }

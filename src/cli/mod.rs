@@ -6,6 +6,7 @@
 //! for scripts; progress bars appear only on a terminal.
 
 mod common;
+mod extract;
 
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
@@ -20,13 +21,26 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
-    // Each command is one variant; its options live in its own module.
+    /// Hash raw bits into near-uniform bits with a seeded extractor
+    Extract(extract::ExtractArgs),
+    /// Recompute an output and check a claimed one against it
+    Verify(extract::VerifyArgs),
 }
 
 /// Runs the command line and maps the outcome to an exit status.
 pub fn main() -> ExitCode {
-    let cli = Cli::parse();
-    let result: anyhow::Result<ExitCode> = match cli.command {};
+    let cli = match Cli::try_parse() {
+        Ok(c) => c,
+        Err(e) => {
+            // Help and version go to stdout with status 0; usage errors exit 2.
+            let _ = e.print();
+            return if e.use_stderr() { ExitCode::from(2) } else { ExitCode::SUCCESS };
+        }
+    };
+    let result: anyhow::Result<ExitCode> = match cli.command {
+        Command::Extract(a) => extract::run_extract(a),
+        Command::Verify(a) => extract::run_verify(a),
+    };
     match result {
         Ok(code) => code,
         Err(e) => common::report_error(&e),

@@ -1,0 +1,253 @@
+//! `sluice extract` and `sluice verify` with an explicit seed file.
+
+use super::common::{self, FileFormatArgs, FormatArg};
+use anyhow::{bail, Context};
+use sluice::bits::Bits;
+use sluice::extract::{Engine, Extractor, ModifiedToeplitz, Toeplitz};
+use sluice::pipeline::{self, Report, Run, Source};
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+/// Extractor names on the command line.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum ExtractorArg {
+    /// Toeplitz hashing (seed n + m - 1 bits)
+    Toeplitz,
+    /// Modified Toeplitz hashing [I | T'] (seed n - 1 bits, m < n)
+    ModifiedToeplitz,
+}
+
+/// Options shared by `extract` and `verify`.
+#[derive(clap::Args, Debug)]
+pub struct Common {
+    /// Raw input file (`-` for standard input)
+    pub input: PathBuf,
+    /// Which extractor to run
+    #[arg(long, value_enum)]
+    pub extractor: ExtractorArg,
+    /// Seed file (packed bytes, MSB first, unless --seed-format says otherwise)
+    #[arg(long = "seed-file", value_name = "SEED")]
+    pub seed_file: PathBuf,
+    /// Format of the seed file
+    #[arg(long = "seed-format", value_enum, default_value = "packed")]
+    pub seed_format: FormatArg,
+    /// Use the first bits of a seed file that holds more than needed
+    #[arg(long = "allow-longer-seed")]
+    pub allow_longer_seed: bool,
+    /// Output bits per block (m)
+    #[arg(long = "output-bits", value_name = "M")]
+    pub output_bits: usize,
+    /// Use only the first N bits of the input
+    #[arg(long = "input-bits", value_name = "N")]
+    pub input_bits: Option<u64>,
+    /// Cut the input into consecutive N-bit blocks, one seed for all
+    #[arg(long = "block-bits", value_name = "N")]
+    pub block_bits: Option<usize>,
+    #[command(flatten)]
+    pub files: FileFormatArgs,
+    /// Product engine: auto, portable, pclmul, vpclmul or fft (all give the same bits)
+    #[arg(long, default_value = "auto", value_parser = parse_engine)]
+    pub engine: Engine,
+    /// Print a JSON report on standard output (or standard error when the
+    /// output goes to standard output)
+    #[arg(long)]
+    pub json: bool,
+    /// Do not print the cautions
+    #[arg(long)]
+    pub quiet: bool,
+}
+
+/// `sluice extract`
+#[derive(clap::Args, Debug)]
+pub struct ExtractArgs {
+    #[command(flatten)]
+    pub common: Common,
+    /// Output file (`-` for standard output); written under a temporary name
+    /// and renamed when complete
+    #[arg(short = 'o', long = "output", value_name = "OUT")]
+    pub output: PathBuf,
+}
+
+/// `sluice verify`
+#[derive(clap::Args, Debug)]
+pub struct VerifyArgs {
+    #[command(flatten)]
+    pub common: Common,
+    /// The claimed output to check (read with --output-format / --output-bit-order)
+    #[arg(long, value_name = "FILE")]
+    pub claimed: PathBuf,
+}
+
+fn parse_engine(s: &str) -> Result<Engine, String> {
+    Engine::from_name(s).ok_or_else(|| format!("unknown engine {s:?}: use auto, portable, pclmul, vpclmul or fft"))
+}
+
+/// The planned extractor, the seed and the input source, after checking
+/// every size.
+struct Resolved {
+    plan: Box<dyn Extractor>,
+    seed: Bits,
+    source: Source,
+}
+
+fn resolve(c: &Common) -> anyhow::Result<Resolved> {
+    if c.input_bits == Some(0) {
+        bail!("--input-bits 0: the input length must be at least 1 bit");
+    }
+    if c.block_bits == Some(0) {
+        bail!("--block-bits 0: a block must hold at least 1 bit");
+    }
+    let input_file = c.files.input(&c.input);
+    // The block size n: given, or the whole (possibly truncated) input.
+    let (n, source) = match (c.block_bits, c.input_bits) {
+        (Some(b), Some(t)) if (b as u64) > t => {
+            bail!("--block-bits {b} is larger than --input-bits {t}: no block would be hashed")
+        }
+        (Some(b), _) => (b, Source::File(input_file)),
+        (None, Some(t)) => (usize::try_from(t).context("--input-bits too large for this machine")?, Source::File(input_file)),
+        (None, None) => {
+            let bits = sluice::bits::io::read_bits(&c.input, input_file.format, input_file.order, None)?;
+            if bits.is_empty() {
+                bail!("{}: the input holds no bits", c.input.display());
+            }
+            (
+                bits.len(),
+                Source::Memory {
+                    bits,
+                    name: c.input.clone(),
+                },
+            )
+        }
+    };
+    let m = c.output_bits;
+    if m == 0 {
+        bail!("--output-bits 0: the output must hold at least 1 bit");
+    }
+    let plan: Box<dyn Extractor> = match c.extractor {
+        ExtractorArg::Toeplitz => {
+            if m > n {
+                bail!("--output-bits {m} is larger than the input block of {n} bits: Toeplitz hashing needs m <= n");
+            }
+            Box::new(Toeplitz::with_engine(n, m, c.engine)?)
+        }
+        ExtractorArg::ModifiedToeplitz => {
+            if m >= n {
+                bail!("--output-bits {m} must be smaller than the input block of {n} bits for modified Toeplitz hashing");
+            }
+            Box::new(ModifiedToeplitz::with_engine(n, m, c.engine)?)
+        }
+    };
+    let seed = pipeline::read_seed(&c.seed_file, c.seed_format.into(), plan.seed_bits(), c.allow_longer_seed)?;
+    Ok(Resolved { plan, seed, source })
+}
+
+fn describe(r: &Report, c: &Common, plan: &dyn Extractor) -> String {
+    let mut s = format!(
+        "{}: {} block(s) of {} bits -> {} bits each ({} bits in all), seed {} bits, engine {}",
+        plan.name(),
+        r.blocks,
+        r.block_bits,
+        plan.output_bits(),
+        r.output_bits,
+        plan.seed_bits(),
+        c.engine
+    );
+    if r.trailing_bits_unused > 0 {
+        s.push_str(&format!(
+            "\nnote: the last {} input bits do not fill a block and were not hashed",
+            r.trailing_bits_unused
+        ));
+    }
+    s
+}
+
+#[derive(serde::Serialize)]
+struct ExtractJson<'a> {
+    extractor: &'static str,
+    engine: String,
+    input_bits_per_block: usize,
+    output_bits_per_block: usize,
+    seed_bits: usize,
+    output: &'a Path,
+    #[serde(flatten)]
+    report: &'a Report,
+}
+
+/// Runs `sluice extract`.
+pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
+    let c = &a.common;
+    let r = resolve(c)?;
+    common::print_cautions(c.quiet);
+    let output = c.files.output(&a.output);
+    let total = c.input_bits.unwrap_or(0);
+    let pb = common::progress(total, "extracting");
+    let run = Run {
+        input: r.source,
+        input_bits: c.input_bits,
+        extractor: r.plan.as_ref(),
+        seed: &r.seed,
+        output,
+    };
+    let report = run.execute(|done| pb.set_position(done))?;
+    pb.finish_and_clear();
+    if c.json {
+        let j = ExtractJson {
+            extractor: r.plan.name(),
+            engine: c.engine.to_string(),
+            input_bits_per_block: r.plan.input_bits(),
+            output_bits_per_block: r.plan.output_bits(),
+            seed_bits: r.plan.seed_bits(),
+            output: &a.output,
+            report: &report,
+        };
+        if a.output.as_os_str() == "-" {
+            eprintln!("{}", serde_json::to_string_pretty(&j)?);
+        } else {
+            common::print_json(&j)?;
+        }
+    } else {
+        let mut err = std::io::stderr();
+        writeln!(err, "{}", describe(&report, c, r.plan.as_ref()))?;
+        if a.output.as_os_str() != "-" {
+            writeln!(err, "wrote {} (owner-only permissions)", a.output.display())?;
+        }
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+/// Runs `sluice verify`: exit 0 on match, 1 on mismatch, 2 on bad usage.
+pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
+    let c = &a.common;
+    let r = resolve(c)?;
+    let claimed = c.files.output(&a.claimed);
+    let pb = common::progress(c.input_bits.unwrap_or(0), "verifying");
+    let run = Run {
+        input: r.source,
+        input_bits: c.input_bits,
+        extractor: r.plan.as_ref(),
+        seed: &r.seed,
+        output: claimed.clone(),
+    };
+    let v = run.verify(&claimed, |done| pb.set_position(done))?;
+    pb.finish_and_clear();
+    if c.json {
+        common::print_json(&v)?;
+    } else if v.matches {
+        println!("match: {} bits of {} agree with the recomputed output", v.computed_bits, a.claimed.display());
+    } else {
+        let first = v.first_difference.unwrap_or(0);
+        println!(
+            "MISMATCH: {} differs from the recomputed output; first differing bit {first}, {} differing bits over the common length",
+            a.claimed.display(),
+            v.differing_bits
+        );
+        if v.claimed_bits < v.computed_bits {
+            println!("the claimed output holds {} bits, the recomputed one {}", v.claimed_bits, v.computed_bits);
+        }
+        if v.extra_claimed_bits > 0 {
+            println!("the claimed output has {} bits beyond the recomputed {}", v.extra_claimed_bits, v.computed_bits);
+        }
+    }
+    Ok(if v.matches { ExitCode::SUCCESS } else { ExitCode::from(1) })
+}

@@ -1,0 +1,382 @@
+//! One extraction run: read blocks, extract, write the output atomically.
+//!
+//! This is the only layer where files and extractors meet. It streams the
+//! input (a block and a batch of blocks in memory, never the whole file when
+//! blocks are given), runs blocks of one batch in parallel on all cores, and
+//! writes the output under a temporary name that is renamed only when
+//! everything has been written and synced. Seeds are never written, printed
+//! or logged here.
+
+pub mod atomic;
+
+use crate::bits::io::{open_input, BitWriter, BlockReader};
+use crate::bits::{BitOrder, Bits, Error as BitsError, ErrorKind as BitsErrorKind, Format};
+use crate::extract::Extractor;
+use atomic::AtomicFile;
+use rayon::prelude::*;
+use std::io::{self, Write};
+use std::path::{Path, PathBuf};
+
+/// Where bits come from and how they are written.
+#[derive(Clone, Debug)]
+pub struct BitFile {
+    /// Path, or `-` for standard input / output.
+    pub path: PathBuf,
+    /// File format.
+    pub format: Format,
+    /// Bit order inside packed bytes.
+    pub order: BitOrder,
+}
+
+impl BitFile {
+    /// Whether this is standard input / output.
+    pub fn is_std(&self) -> bool {
+        self.path.as_os_str() == "-"
+    }
+}
+
+/// Where a run's input comes from.
+#[derive(Clone, Debug)]
+pub enum Source {
+    /// Streamed from a file or standard input.
+    File(BitFile),
+    /// Already in memory (read whole to learn its length); `name` is for
+    /// messages.
+    Memory {
+        /// The bits.
+        bits: Bits,
+        /// The file they came from.
+        name: PathBuf,
+    },
+}
+
+impl Source {
+    /// The file name for messages.
+    pub fn name(&self) -> &Path {
+        match self {
+            Source::File(f) => &f.path,
+            Source::Memory { name, .. } => name,
+        }
+    }
+
+    fn reader(&self) -> Result<BlockReader<Box<dyn io::Read + Send + '_>>, BitsError> {
+        Ok(match self {
+            Source::File(f) => BlockReader::new(open_input(&f.path)?, &f.path, f.format, f.order),
+            Source::Memory { bits, name } => {
+                let bytes = bits.to_packed(BitOrder::Msb);
+                BlockReader::new(Box::new(io::Cursor::new(bytes)), name, Format::Packed, BitOrder::Msb)
+            }
+        })
+    }
+}
+
+/// An extraction with the seed given explicitly (nothing is recorded).
+pub struct Run<'a> {
+    /// The raw input.
+    pub input: Source,
+    /// Use only the first this many bits of the input.
+    pub input_bits: Option<u64>,
+    /// The planned extractor; its input length is the block size.
+    pub extractor: &'a dyn Extractor,
+    /// The seed (exactly the extractor's seed length).
+    pub seed: &'a Bits,
+    /// Where the output goes.
+    pub output: BitFile,
+}
+
+/// What a run did.
+#[derive(Clone, Debug, Default, serde::Serialize)]
+pub struct Report {
+    /// Blocks hashed.
+    pub blocks: u64,
+    /// Bits per block.
+    pub block_bits: u64,
+    /// Input bits hashed (`blocks * block_bits`).
+    pub input_bits_used: u64,
+    /// Input bits after the last full block, not hashed.
+    pub trailing_bits_unused: u64,
+    /// Output bits written.
+    pub output_bits: u64,
+}
+
+/// Errors of a run.
+#[derive(Debug, thiserror::Error)]
+pub enum Error {
+    /// Reading or parsing the input.
+    #[error(transparent)]
+    Input(#[from] BitsError),
+    /// Writing the output.
+    #[error("{path}: {source}")]
+    Output {
+        /// The output path.
+        path: PathBuf,
+        /// The cause.
+        source: io::Error,
+    },
+    /// The input holds no full block.
+    #[error("{path}: the input holds {available} bits, fewer than one block of {block} bits; nothing was written")]
+    NoBlock {
+        /// The input path.
+        path: PathBuf,
+        /// Bits available.
+        available: u64,
+        /// Block size.
+        block: u64,
+    },
+}
+
+/// Blocks per parallel batch, and the memory it may take.
+const BATCH_BYTES: usize = 256 << 20;
+
+impl Run<'_> {
+    /// Runs the extraction; `progress` is called with the input bits
+    /// consumed so far.
+    pub fn execute(&self, progress: impl FnMut(u64)) -> Result<Report, Error> {
+        let out_err = |e: io::Error| Error::Output {
+            path: self.output.path.clone(),
+            source: e,
+        };
+        let mut sink = Sink::open(&self.output).map_err(out_err)?;
+        let report = self.execute_with(progress, |y| sink.write_bits(y).map_err(out_err))?;
+        sink.finish().map_err(out_err)?;
+        Ok(report)
+    }
+
+    /// Recomputes the output and compares it with a claimed output file
+    /// (the `output` field of the run is ignored).
+    pub fn verify(&self, claimed: &BitFile, progress: impl FnMut(u64)) -> Result<Verdict, Error> {
+        let r = open_input(&claimed.path)?;
+        let mut cr = BlockReader::new(r, &claimed.path, claimed.format, claimed.order);
+        let m = self.extractor.output_bits();
+        let mut buf = Bits::zeros(m);
+        let mut v = Verdict::default();
+        let mut short = false;
+        let report = self.execute_with(progress, |y| {
+            let at = v.computed_bits;
+            v.computed_bits += m as u64;
+            if short {
+                return Ok(());
+            }
+            if cr.next_block(&mut buf)? {
+                if let Some(i) = y.first_difference(&buf) {
+                    v.first_difference.get_or_insert(at + i as u64);
+                    v.differing_bits += y.hamming_distance(&buf);
+                }
+            } else {
+                // The claimed output ends inside this block.
+                short = true;
+                let mut rest = Bits::new();
+                cr.read_to_end(&mut rest)?;
+                let head = y.slice(0, rest.len());
+                if let Some(i) = head.first_difference(&rest) {
+                    v.first_difference.get_or_insert(at + i as u64);
+                    v.differing_bits += head.hamming_distance(&rest);
+                }
+                v.first_difference.get_or_insert(at + rest.len() as u64);
+            }
+            Ok(())
+        })?;
+        let mut rest = Bits::new();
+        if !short {
+            cr.read_to_end(&mut rest)?;
+        }
+        v.claimed_bits = cr.bits_consumed();
+        // Packed and hex files pad the last byte with zero bits; more than
+        // that, or nonzero padding, is a difference.
+        let pad = (8 - v.computed_bits % 8) % 8;
+        let pad_ok = claimed.format != Format::Ascii && rest.len() as u64 == pad && rest.count_ones() == 0;
+        if !rest.is_empty() && !pad_ok {
+            v.extra_claimed_bits = rest.len() as u64;
+            v.first_difference.get_or_insert(v.computed_bits);
+        } else {
+            v.claimed_bits -= rest.len() as u64;
+        }
+        v.matches = v.first_difference.is_none();
+        v.report = report;
+        Ok(v)
+    }
+
+    /// Runs the blocks and hands each output block to `consume`, in order.
+    pub fn execute_with(
+        &self,
+        mut progress: impl FnMut(u64),
+        mut consume: impl FnMut(&Bits) -> Result<(), Error>,
+    ) -> Result<Report, Error> {
+        let n = self.extractor.input_bits();
+        let m = self.extractor.output_bits();
+        let mut reader = self.input.reader()?;
+        let input_bits = match &self.input {
+            Source::Memory { bits, .. } => Some(self.input_bits.unwrap_or(bits.len() as u64)),
+            Source::File(_) => self.input_bits,
+        };
+        let max_blocks = input_bits.map(|t| t / n as u64);
+        let bound = self.extractor.with_seed(self.seed);
+
+        let threads = rayon::current_num_threads().max(1);
+        let per_block = (n + m).div_ceil(8).max(1);
+        let batch = (2 * threads).min((BATCH_BYTES / per_block).max(1));
+        let mut inputs: Vec<Bits> = (0..batch).map(|_| Bits::zeros(n)).collect();
+        let mut outputs: Vec<Bits> = (0..batch).map(|_| Bits::zeros(m)).collect();
+        let mut report = Report {
+            block_bits: n as u64,
+            ..Report::default()
+        };
+        let mut done = false;
+        while !done {
+            let mut filled = 0;
+            while filled < batch {
+                if max_blocks.is_some_and(|mb| report.blocks + filled as u64 >= mb) {
+                    done = true;
+                    break;
+                }
+                if !reader.next_block(&mut inputs[filled])? {
+                    done = true;
+                    break;
+                }
+                filled += 1;
+            }
+            if filled > 0 {
+                inputs[..filled]
+                    .par_iter()
+                    .zip(outputs[..filled].par_iter_mut())
+                    .for_each(|(x, y)| bound.extract(x, y));
+                for y in &outputs[..filled] {
+                    consume(y)?;
+                }
+                report.blocks += filled as u64;
+                progress(report.blocks * n as u64);
+            }
+        }
+        report.input_bits_used = report.blocks * n as u64;
+        report.output_bits = report.blocks * m as u64;
+        report.trailing_bits_unused = match input_bits {
+            Some(total) => {
+                // The user asked for `total` bits: the input must hold them.
+                let rest = total - report.input_bits_used;
+                let mut tail = Bits::zeros(rest as usize);
+                if !reader.next_block(&mut tail)? {
+                    return Err(BitsError::new(BitsErrorKind::TooShort {
+                        wanted: total,
+                        available: reader.bits_available(),
+                    })
+                    .at_offset(reader.bytes_read())
+                    .in_file(self.input.name())
+                    .into());
+                }
+                rest
+            }
+            None => reader.remainder_bits() as u64,
+        };
+        if report.blocks == 0 {
+            return Err(Error::NoBlock {
+                path: self.input.name().to_path_buf(),
+                available: reader.bits_available(),
+                block: n as u64,
+            });
+        }
+        Ok(report)
+    }
+}
+
+/// The outcome of [`Run::verify`].
+#[derive(Clone, Debug, Default, serde::Serialize)]
+pub struct Verdict {
+    /// Whether the claimed output equals the recomputed one.
+    pub matches: bool,
+    /// Index of the first differing bit (a length difference counts at the
+    /// shorter length).
+    pub first_difference: Option<u64>,
+    /// Differing bits over the common length.
+    pub differing_bits: u64,
+    /// Bits recomputed.
+    pub computed_bits: u64,
+    /// Bits read from the claimed file (without zero pad bits).
+    pub claimed_bits: u64,
+    /// Claimed bits beyond the recomputed length.
+    pub extra_claimed_bits: u64,
+    /// The extraction run.
+    pub report: Report,
+}
+
+/// The output: a temporary file renamed at the end, or standard output.
+enum Sink {
+    File(BitWriter<AtomicFile>),
+    Stdout(BitWriter<io::Stdout>),
+}
+
+impl Sink {
+    fn open(out: &BitFile) -> io::Result<Sink> {
+        Ok(if out.is_std() {
+            Sink::Stdout(BitWriter::new(io::stdout(), out.format, out.order))
+        } else {
+            // Outputs are secret: owner-only from creation.
+            Sink::File(BitWriter::new(AtomicFile::create(&out.path, true)?, out.format, out.order))
+        })
+    }
+
+    fn write_bits(&mut self, b: &Bits) -> io::Result<()> {
+        match self {
+            Sink::File(w) => w.write_bits(b),
+            Sink::Stdout(w) => w.write_bits(b),
+        }
+    }
+
+    fn finish(self) -> io::Result<()> {
+        match self {
+            Sink::File(w) => w.finish()?.commit(),
+            Sink::Stdout(w) => w.finish()?.flush(),
+        }
+    }
+}
+
+/// Reads a seed file: `needed` bits, refusing a shorter file and (unless
+/// `allow_longer`) one that holds more than `needed` bits rounded up to
+/// whole bytes.
+pub fn read_seed(path: &Path, format: Format, needed: usize, allow_longer: bool) -> Result<Bits, SeedFileError> {
+    let all = crate::bits::io::read_bits(path, format, BitOrder::Msb, None)?;
+    let have = all.len();
+    if have < needed {
+        return Err(SeedFileError::Short {
+            path: path.to_path_buf(),
+            have,
+            needed,
+        });
+    }
+    if !allow_longer && have > needed.div_ceil(8) * 8 {
+        return Err(SeedFileError::Long {
+            path: path.to_path_buf(),
+            have,
+            needed,
+        });
+    }
+    Ok(all.slice(0, needed))
+}
+
+/// A seed file that does not fit.
+#[derive(Debug, thiserror::Error)]
+pub enum SeedFileError {
+    /// Reading or parsing failed.
+    #[error(transparent)]
+    Read(#[from] BitsError),
+    /// Too few bits.
+    #[error("{}: the seed file holds {have} bits but this extractor needs {needed} seed bits", path.display())]
+    Short {
+        /// Seed file.
+        path: PathBuf,
+        /// Bits in the file.
+        have: usize,
+        /// Bits needed.
+        needed: usize,
+    },
+    /// Too many bits.
+    #[error("{}: the seed file holds {have} bits, more than the {needed} this extractor needs; pass --allow-longer-seed to use its first {needed} bits", path.display())]
+    Long {
+        /// Seed file.
+        path: PathBuf,
+        /// Bits in the file.
+        have: usize,
+        /// Bits needed.
+        needed: usize,
+    },
+}
+
