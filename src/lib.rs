@@ -28,3 +28,4 @@ pub mod bits;
 pub mod extract;
 pub mod gf2;
 pub mod pipeline;
+pub mod vectors;

@@ -7,6 +7,7 @@
 
 mod common;
 mod extract;
+mod vectors;
 
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
@@ -25,6 +26,8 @@ enum Command {
     Extract(extract::ExtractArgs),
     /// Recompute an output and check a claimed one against it
     Verify(extract::VerifyArgs),
+    /// Check the published test vectors
+    Vectors(vectors::VectorsArgs),
 }
 
 /// Runs the command line and maps the outcome to an exit status.
@@ -40,6 +43,7 @@ pub fn main() -> ExitCode {
     let result: anyhow::Result<ExitCode> = match cli.command {
         Command::Extract(a) => extract::run_extract(a),
         Command::Verify(a) => extract::run_verify(a),
+        Command::Vectors(a) => vectors::run(a),
     };
     match result {
         Ok(code) => code,

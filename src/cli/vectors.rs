@@ -1,0 +1,223 @@
+//! `sluice vectors check [DIR]` (and the hidden `vectors generate`).
+
+use super::common;
+use anyhow::{bail, Context};
+use sluice::bits::digest::data_digest;
+use sluice::bits::{BitOrder, Bits};
+use sluice::extract::{reference, Engine, Extractor, ModifiedToeplitz, Toeplitz};
+use sluice::vectors::{self, shake_bits, Outcome};
+use std::fmt::Write as _;
+use std::io::Write as _;
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+/// `sluice vectors`
+#[derive(clap::Args, Debug)]
+pub struct VectorsArgs {
+    #[command(subcommand)]
+    pub command: VectorsCommand,
+}
+
+/// What to do with vectors.
+#[derive(clap::Subcommand, Debug)]
+pub enum VectorsCommand {
+    /// Recompute every vector in DIR (default: ./vectors) and print pass/fail
+    Check {
+        /// Folder of *.vec files
+        #[arg(default_value = "vectors")]
+        dir: PathBuf,
+        /// Print the results as JSON
+        #[arg(long)]
+        json: bool,
+    },
+    /// Write the hashing vectors (toeplitz.vec, modified-toeplitz.vec) into DIR
+    #[command(hide = true)]
+    Generate {
+        /// Output folder
+        #[arg(long = "out")]
+        out: PathBuf,
+    },
+}
+
+/// Runs `sluice vectors`.
+pub fn run(a: VectorsArgs) -> anyhow::Result<ExitCode> {
+    match a.command {
+        VectorsCommand::Check { dir, json } => check(&dir, json),
+        VectorsCommand::Generate { out } => generate(&out),
+    }
+}
+
+fn check(dir: &Path, json: bool) -> anyhow::Result<ExitCode> {
+    let mut files: Vec<PathBuf> = std::fs::read_dir(dir)
+        .with_context(|| format!("{}: cannot read the vector folder", dir.display()))?
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .filter(|p| p.extension().is_some_and(|x| x == "vec"))
+        .collect();
+    files.sort();
+    if files.is_empty() {
+        bail!("{}: no *.vec files", dir.display());
+    }
+    let mut all: Vec<(String, Outcome)> = Vec::new();
+    let mut stdout = std::io::stdout().lock();
+    for f in &files {
+        let text = std::fs::read_to_string(f).with_context(|| format!("{}: cannot read", f.display()))?;
+        let cases = vectors::parse(&text).with_context(|| format!("{}", f.display()))?;
+        let fname = f.file_name().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default();
+        for (i, c) in cases.iter().enumerate() {
+            let outcomes = vectors::check_case(c);
+            if !json {
+                let pass = outcomes.iter().all(|o| o.pass) && !outcomes.is_empty();
+                let engines: Vec<&str> = outcomes.iter().filter(|o| o.mode == "bound").map(|o| o.engine.as_str()).collect();
+                writeln!(
+                    stdout,
+                    "{} {fname} #{} {} (n={}, m={}; engines {}; one-shot and bound)",
+                    if pass { "pass" } else { "FAIL" },
+                    i + 1,
+                    c.name,
+                    c.input_bits,
+                    c.output_bits,
+                    engines.join(",")
+                )?;
+                for o in outcomes.iter().filter(|o| !o.pass) {
+                    writeln!(stdout, "     {} {}: {}", o.engine, o.mode, o.detail.as_deref().unwrap_or("failed"))?;
+                }
+            }
+            all.extend(outcomes.into_iter().map(|o| (fname.clone(), o)));
+        }
+    }
+    let failed = all.iter().filter(|(_, o)| !o.pass).count();
+    let cases: std::collections::BTreeSet<(&str, &str)> = all.iter().map(|(f, o)| (f.as_str(), o.case.as_str())).collect();
+    if json {
+        let results: Vec<serde_json::Value> = all
+            .iter()
+            .map(|(f, o)| serde_json::json!({"file": f, "case": o.case, "engine": o.engine, "mode": o.mode, "pass": o.pass, "detail": o.detail}))
+            .collect();
+        common::print_json(&serde_json::json!({
+            "cases": cases.len(),
+            "checks": all.len(),
+            "failed": failed,
+            "results": results,
+        }))?;
+    } else {
+        writeln!(stdout, "{} cases, {} checks: {} passed, {} failed", cases.len(), all.len(), all.len() - failed, failed)?;
+    }
+    Ok(if failed == 0 { ExitCode::SUCCESS } else { ExitCode::from(1) })
+}
+
+/// The sizes of the hashing vectors: edge cases, pseudo-random sizes up to
+/// 2^16 bits (drawn from SHAKE256, so the list is reproducible), and large
+/// cases given by recipe.
+fn hashing_sizes(modified: bool) -> Vec<(String, usize, usize, bool)> {
+    let mut v = Vec::new();
+    let edges: &[(usize, usize)] = &[
+        (1, 1),
+        (2, 1),
+        (2, 2),
+        (3, 2),
+        (7, 3),
+        (8, 8),
+        (9, 1),
+        (9, 8),
+        (63, 63),
+        (64, 1),
+        (64, 63),
+        (64, 64),
+        (65, 64),
+        (65, 65),
+        (127, 1),
+        (128, 128),
+        (129, 100),
+        (200, 199),
+        (513, 511),
+        (1000, 1),
+        (2049, 2048),
+        (4096, 2048),
+    ];
+    for &(n, m) in edges {
+        if modified && m >= n {
+            continue;
+        }
+        v.push((format!("edge-n{n}-m{m}"), n, m, true));
+    }
+    let r = shake_bits(if modified { "sluice-vectors/1/sizes/modified" } else { "sluice-vectors/1/sizes/toeplitz" }, 64 * 20);
+    for i in 0..10 {
+        let w = r.words()[2 * i];
+        let f = r.words()[2 * i + 1];
+        let n = 1024 + (w % (65536 - 1024 + 1) as u64) as usize;
+        let top = if modified { n - 1 } else { n };
+        let m = 1 + (f % top as u64) as usize;
+        v.push((format!("random-{}-n{n}-m{m}", i + 1), n, m, true));
+    }
+    v.push(("full-n65536-m32768".to_string(), 65536, 32768, true));
+    for log in [20usize, 24] {
+        v.push((format!("large-2^{log}"), 1 << log, 1 << (log - 1), false));
+    }
+    v
+}
+
+fn generate(dir: &Path) -> anyhow::Result<ExitCode> {
+    std::fs::create_dir_all(dir)?;
+    for (family, modified) in [("toeplitz", false), ("modified-toeplitz", true)] {
+        let mut text = String::new();
+        writeln!(text, "{}", vectors::HEADER)?;
+        writeln!(
+            text,
+            "# {family} hashing vectors, definitions of spec/conventions.md.\n\
+             # Generated by `sluice vectors generate`; inputs and seeds are SHAKE256\n\
+             # (FIPS 202) of the labels shown. Outputs of cases with n*m <= 2^28 come from\n\
+             # the matrix definition (src/extract/reference.rs); larger ones from the\n\
+             # carry-less engine, cross-checked against the FFT engine at generation.\n\
+             # See vectors/README.md for the format."
+        )?;
+        for (name, n, m, full) in hashing_sizes(modified) {
+            let label = format!("sluice-vectors/1/{family}/{name}");
+            let x = shake_bits(&format!("{label}/input"), n);
+            let d = if modified { n - 1 } else { n + m - 1 };
+            let s = shake_bits(&format!("{label}/seed"), d);
+            let y = compute(modified, &x, &s, m)?;
+            writeln!(text, "\ncase {name}\nextractor {family}\ninput-bits {n}\noutput-bits {m}")?;
+            if full {
+                writeln!(text, "input {}", x.to_hex(BitOrder::Msb))?;
+                writeln!(text, "seed {}", s.to_hex(BitOrder::Msb))?;
+                writeln!(text, "output {}", y.to_hex(BitOrder::Msb))?;
+            } else {
+                writeln!(text, "input-shake256 {label}/input")?;
+                writeln!(text, "seed-shake256 {label}/seed")?;
+                writeln!(text, "input-digest {}", data_digest(&x))?;
+                writeln!(text, "seed-digest {}", data_digest(&s))?;
+                writeln!(text, "output-digest {}", data_digest(&y))?;
+            }
+            writeln!(text, "end")?;
+        }
+        if !modified {
+            // spec/hashing-and-composition.md 3.4, as printed there.
+            writeln!(text, "\n# spec/hashing-and-composition.md 3.4\ncase spec-3.4\nextractor toeplitz\ninput-bits 16\noutput-bits 8\ninput 7b6f\nseed 2b5726\noutput 2a\nend")?;
+        } else {
+            writeln!(text, "\n# spec/hashing-and-composition.md 3.4\ncase spec-3.4\nextractor modified-toeplitz\ninput-bits 16\noutput-bits 8\ninput 7b6f\nseed 2b56\noutput 4e\nend")?;
+        }
+        let path = dir.join(format!("{family}.vec"));
+        std::fs::write(&path, text)?;
+        eprintln!("wrote {}", path.display());
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+fn compute(modified: bool, x: &Bits, s: &Bits, m: usize) -> anyhow::Result<Bits> {
+    let n = x.len();
+    if (n as u128) * (m as u128) <= 1 << 28 {
+        return Ok(if modified { reference::modified_toeplitz(x, s, m) } else { reference::toeplitz(x, s, m) });
+    }
+    let run = |e: Engine| -> anyhow::Result<Bits> {
+        let plan: Box<dyn Extractor> =
+            if modified { Box::new(ModifiedToeplitz::with_engine(n, m, e)?) } else { Box::new(Toeplitz::with_engine(n, m, e)?) };
+        let mut y = Bits::zeros(m);
+        plan.extract(x, s, &mut y);
+        Ok(y)
+    };
+    let a = run(Engine::detect())?;
+    let b = run(Engine::Fft)?;
+    if a != b {
+        bail!("engines disagree at n = {n}, m = {m}: not writing vectors");
+    }
+    Ok(a)
+}
