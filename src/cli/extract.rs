@@ -99,6 +99,18 @@ fn resolve(c: &Common) -> anyhow::Result<Resolved> {
         bail!("--block-bits 0: a block must hold at least 1 bit");
     }
     let input_file = c.files.input(&c.input);
+    // A packed file's length is known up front: refuse a length it cannot
+    // hold before anything else (the stream check catches the other formats).
+    if input_file.format == sluice::bits::Format::Packed && !input_file.is_std() {
+        if let Ok(md) = std::fs::metadata(&c.input) {
+            let have = md.len() * 8;
+            if let Some(want) = c.input_bits.or(c.block_bits.map(|b| b as u64)) {
+                if want > have {
+                    bail!("{}: {want} bits asked for, but the input ends after {have} bits", c.input.display());
+                }
+            }
+        }
+    }
     // The block size n: given, or the whole (possibly truncated) input.
     let (n, source) = match (c.block_bits, c.input_bits) {
         (Some(b), Some(t)) if (b as u64) > t => {
