@@ -24,7 +24,10 @@ fn bench_family(c: &mut Criterion, family: &str) {
     group.sample_size(10);
     group.warm_up_time(Duration::from_millis(300));
     group.measurement_time(Duration::from_secs(2));
-    let max_log: u32 = std::env::var("SLUICE_BENCH_MAX_LOG2").ok().and_then(|v| v.parse().ok()).unwrap_or(22);
+    let max_log: u32 = std::env::var("SLUICE_BENCH_MAX_LOG2")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(22);
     for log_n in (14..=max_log).step_by(2) {
         let n = 1usize << log_n;
         let m = n / 2;
@@ -43,9 +46,11 @@ fn bench_family(c: &mut Criterion, family: &str) {
             let s = pseudo_bits(2, plan.seed_bits());
             let bound = plan.with_seed(&s);
             let mut y = Bits::zeros(m);
-            group.bench_with_input(BenchmarkId::new(engine.name(), format!("2^{log_n}")), &n, |b, _| {
-                b.iter(|| bound.extract(&x, &mut y))
-            });
+            group.bench_with_input(
+                BenchmarkId::new(engine.name(), format!("2^{log_n}")),
+                &n,
+                |b, _| b.iter(|| bound.extract(&x, &mut y)),
+            );
         }
     }
     group.finish();

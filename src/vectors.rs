@@ -100,16 +100,29 @@ fn perr(line: usize, message: impl Into<String>) -> ParseError {
     }
 }
 
+/// A case being read: its first line, its fields (with their lines) and its
+/// parameters.
+type OpenCase = (
+    usize,
+    BTreeMap<String, (usize, String)>,
+    BTreeMap<String, String>,
+);
+
 /// Parses a vector file.
 pub fn parse(text: &str) -> Result<Vec<Case>, ParseError> {
     let mut lines = text.lines().enumerate().map(|(i, l)| (i + 1, l.trim()));
     match lines.find(|(_, l)| !l.is_empty() && !l.starts_with('#')) {
         Some((_, l)) if l == HEADER => {}
-        Some((i, l)) => return Err(perr(i, format!("expected the header {HEADER:?}, found {l:?}"))),
+        Some((i, l)) => {
+            return Err(perr(
+                i,
+                format!("expected the header {HEADER:?}, found {l:?}"),
+            ))
+        }
         None => return Err(perr(1, "empty file")),
     }
     let mut cases: Vec<Case> = Vec::new();
-    let mut cur: Option<(usize, BTreeMap<String, (usize, String)>, BTreeMap<String, String>)> = None;
+    let mut cur: Option<OpenCase> = None;
     for (i, l) in lines {
         if l.is_empty() || l.starts_with('#') {
             continue;
@@ -143,7 +156,10 @@ pub fn parse(text: &str) -> Result<Vec<Case>, ParseError> {
                 params.insert(k.to_string(), v.trim().to_string());
             }
             (_, Some((_, fields, _))) => {
-                if fields.insert(key.to_string(), (i, value.to_string())).is_some() {
+                if fields
+                    .insert(key.to_string(), (i, value.to_string()))
+                    .is_some()
+                {
                     return Err(perr(i, format!("field {key:?} given twice")));
                 }
             }
@@ -163,17 +179,25 @@ fn build_case(
 ) -> Result<Case, ParseError> {
     let mut take = |k: &str| f.remove(k);
     let name = take("name").expect("set at case").1;
-    let need = |v: Option<(usize, String)>, k: &str| v.ok_or_else(|| perr(line, format!("case {name}: missing {k:?}")));
+    let need = |v: Option<(usize, String)>, k: &str| {
+        v.ok_or_else(|| perr(line, format!("case {name}: missing {k:?}")))
+    };
     let extractor = need(take("extractor"), "extractor")?.1;
     let num = |v: (usize, String), k: &str| -> Result<usize, ParseError> {
-        v.1.parse().map_err(|_| perr(v.0, format!("{k}: {:?} is not a whole number", v.1)))
+        v.1.parse()
+            .map_err(|_| perr(v.0, format!("{k}: {:?} is not a whole number", v.1)))
     };
     let input_bits = num(need(take("input-bits"), "input-bits")?, "input-bits")?;
     let output_bits = num(need(take("output-bits"), "output-bits")?, "output-bits")?;
-    let data = |hex: Option<(usize, String)>, shake: Option<(usize, String)>, what: &str| match (hex, shake) {
+    let data = |hex: Option<(usize, String)>, shake: Option<(usize, String)>, what: &str| match (
+        hex, shake,
+    ) {
         (Some(h), None) => Ok(Data::Hex(h.1)),
         (None, Some(s)) => Ok(Data::Shake256(s.1)),
-        _ => Err(perr(line, format!("case {name}: give exactly one of {what:?} and \"{what}-shake256\""))),
+        _ => Err(perr(
+            line,
+            format!("case {name}: give exactly one of {what:?} and \"{what}-shake256\""),
+        )),
     };
     let input = data(take("input"), take("input-shake256"), "input")?;
     let seed = data(take("seed"), take("seed-shake256"), "seed")?;
@@ -182,7 +206,10 @@ fn build_case(
     let seed_digest = take("seed-digest").map(|v| v.1);
     let output_digest = take("output-digest").map(|v| v.1);
     if output.is_none() && output_digest.is_none() {
-        return Err(perr(line, format!("case {name}: needs \"output\" or \"output-digest\"")));
+        return Err(perr(
+            line,
+            format!("case {name}: needs \"output\" or \"output-digest\""),
+        ));
     }
     if let Some((k, (l, _))) = f.into_iter().next() {
         return Err(perr(l, format!("case {name}: unknown field {k:?}")));
@@ -219,7 +246,11 @@ impl Data {
             Data::Hex(h) => {
                 let b = Bits::from_hex(h, None, BitOrder::Msb).map_err(|e| e.to_string())?;
                 if b.len() != nbits.div_ceil(8) * 8 {
-                    return Err(format!("hex holds {} bits, expected {} rounded up to whole bytes", b.len(), nbits));
+                    return Err(format!(
+                        "hex holds {} bits, expected {} rounded up to whole bytes",
+                        b.len(),
+                        nbits
+                    ));
                 }
                 let s = b.slice(0, nbits);
                 if b.slice(nbits, b.len() - nbits).count_ones() != 0 {
@@ -236,8 +267,12 @@ impl Data {
 pub fn build_extractor(case: &Case, engine: Engine) -> Result<Box<dyn Extractor>, String> {
     let (n, m) = (case.input_bits, case.output_bits);
     match case.extractor.as_str() {
-        "toeplitz" => Ok(Box::new(Toeplitz::with_engine(n, m, engine).map_err(|e| e.to_string())?)),
-        "modified-toeplitz" => Ok(Box::new(ModifiedToeplitz::with_engine(n, m, engine).map_err(|e| e.to_string())?)),
+        "toeplitz" => Ok(Box::new(
+            Toeplitz::with_engine(n, m, engine).map_err(|e| e.to_string())?,
+        )),
+        "modified-toeplitz" => Ok(Box::new(
+            ModifiedToeplitz::with_engine(n, m, engine).map_err(|e| e.to_string())?,
+        )),
         other => Err(format!("unknown extractor {other:?}")),
     }
 }
@@ -248,7 +283,13 @@ pub fn engines_for(case: &Case) -> Vec<Engine> {
     Engine::all_supported()
         .into_iter()
         .filter(|e| !(e.name() == "portable" && case.input_bits > 1 << 18))
-        .filter(|e| *e != Engine::Fft || crate::gf2::fft::FftWindow::accepts(case.input_bits.max(1), case.output_bits.max(1)))
+        .filter(|e| {
+            *e != Engine::Fft
+                || crate::gf2::fft::FftWindow::accepts(
+                    case.input_bits.max(1),
+                    case.output_bits.max(1),
+                )
+        })
         .collect()
 }
 
@@ -289,10 +330,17 @@ pub fn check_case(case: &Case) -> Vec<Outcome> {
         Ok(s) => s,
         Err(e) => return vec![fail("-", "one-shot", format!("seed: {e}"))],
     };
-    for (what, want, bits) in [("input", &case.input_digest, &x), ("seed", &case.seed_digest, &s)] {
+    for (what, want, bits) in [
+        ("input", &case.input_digest, &x),
+        ("seed", &case.seed_digest, &s),
+    ] {
         if let Some(d) = want {
             if &data_digest(bits) != d {
-                return vec![fail("-", "one-shot", format!("{what} digest differs from the recipe's bits"))];
+                return vec![fail(
+                    "-",
+                    "one-shot",
+                    format!("{what} digest differs from the recipe's bits"),
+                )];
             }
         }
     }
@@ -315,7 +363,8 @@ pub fn check_case(case: &Case) -> Vec<Outcome> {
             if let Some(h) = &case.output {
                 let got = y.to_hex(BitOrder::Msb);
                 if &got != h {
-                    let want = Bits::from_hex(h, None, BitOrder::Msb).map(|w| w.slice(0, case.output_bits.min(w.len())));
+                    let want = Bits::from_hex(h, None, BitOrder::Msb)
+                        .map(|w| w.slice(0, case.output_bits.min(w.len())));
                     match want {
                         Ok(w) => problems.push(format!(
                             "output differs from bit {} on",

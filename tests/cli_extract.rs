@@ -8,7 +8,11 @@ use std::process::{Command, Output};
 const BIN: &str = env!("CARGO_BIN_EXE_sluice");
 
 fn sluice(dir: &Path, args: &[&str]) -> Output {
-    Command::new(BIN).current_dir(dir).args(args).output().unwrap()
+    Command::new(BIN)
+        .current_dir(dir)
+        .args(args)
+        .output()
+        .unwrap()
 }
 
 fn pseudo(seed: u64, n: usize) -> Bits {
@@ -36,7 +40,21 @@ fn blocks_match_the_matrix_definition_and_verify_agrees() {
     std::fs::write(d.path().join("seed.bin"), seed.to_packed(BitOrder::Msb)).unwrap();
     let o = sluice(
         d.path(),
-        &["extract", "raw.bin", "--extractor", "toeplitz", "--seed-file", "seed.bin", "--output-bits", "333", "--block-bits", "1000", "-o", "out.bin", "--quiet"],
+        &[
+            "extract",
+            "raw.bin",
+            "--extractor",
+            "toeplitz",
+            "--seed-file",
+            "seed.bin",
+            "--output-bits",
+            "333",
+            "--block-bits",
+            "1000",
+            "-o",
+            "out.bin",
+            "--quiet",
+        ],
     );
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let err = String::from_utf8_lossy(&o.stderr);
@@ -51,31 +69,84 @@ fn blocks_match_the_matrix_definition_and_verify_agrees() {
     #[cfg(unix)]
     {
         use std::os::unix::fs::PermissionsExt;
-        let mode = std::fs::metadata(d.path().join("out.bin")).unwrap().permissions().mode();
+        let mode = std::fs::metadata(d.path().join("out.bin"))
+            .unwrap()
+            .permissions()
+            .mode();
         assert_eq!(mode & 0o077, 0, "output must be owner-only");
     }
     let v = sluice(
         d.path(),
-        &["verify", "raw.bin", "--extractor", "toeplitz", "--seed-file", "seed.bin", "--output-bits", "333", "--block-bits", "1000", "--claimed", "out.bin"],
+        &[
+            "verify",
+            "raw.bin",
+            "--extractor",
+            "toeplitz",
+            "--seed-file",
+            "seed.bin",
+            "--output-bits",
+            "333",
+            "--block-bits",
+            "1000",
+            "--claimed",
+            "out.bin",
+        ],
     );
-    assert_eq!(v.status.code(), Some(0), "{}", String::from_utf8_lossy(&v.stdout));
+    assert_eq!(
+        v.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&v.stdout)
+    );
     // Flip bit 700 of the claimed output: mismatch at 700, one differing bit.
     let mut bad = want.clone();
     bad.set(700, !bad.get(700));
     std::fs::write(d.path().join("bad.bin"), bad.to_packed(BitOrder::Msb)).unwrap();
     let v = sluice(
         d.path(),
-        &["verify", "raw.bin", "--extractor", "toeplitz", "--seed-file", "seed.bin", "--output-bits", "333", "--block-bits", "1000", "--claimed", "bad.bin", "--json"],
+        &[
+            "verify",
+            "raw.bin",
+            "--extractor",
+            "toeplitz",
+            "--seed-file",
+            "seed.bin",
+            "--output-bits",
+            "333",
+            "--block-bits",
+            "1000",
+            "--claimed",
+            "bad.bin",
+            "--json",
+        ],
     );
     assert_eq!(v.status.code(), Some(1));
     let j: serde_json::Value = serde_json::from_slice(&v.stdout).unwrap();
     assert_eq!(j["first_difference"], 700);
     assert_eq!(j["differing_bits"], 1);
     // A claimed output that is too short.
-    std::fs::write(d.path().join("short.bin"), &want.to_packed(BitOrder::Msb)[..100]).unwrap();
+    std::fs::write(
+        d.path().join("short.bin"),
+        &want.to_packed(BitOrder::Msb)[..100],
+    )
+    .unwrap();
     let v = sluice(
         d.path(),
-        &["verify", "raw.bin", "--extractor", "toeplitz", "--seed-file", "seed.bin", "--output-bits", "333", "--block-bits", "1000", "--claimed", "short.bin", "--json"],
+        &[
+            "verify",
+            "raw.bin",
+            "--extractor",
+            "toeplitz",
+            "--seed-file",
+            "seed.bin",
+            "--output-bits",
+            "333",
+            "--block-bits",
+            "1000",
+            "--claimed",
+            "short.bin",
+            "--json",
+        ],
     );
     assert_eq!(v.status.code(), Some(1));
     let j: serde_json::Value = serde_json::from_slice(&v.stdout).unwrap();
@@ -91,7 +162,28 @@ fn formats_and_input_bits() {
     std::fs::write(d.path().join("seed.hex"), seed.to_hex(BitOrder::Msb)).unwrap();
     let o = sluice(
         d.path(),
-        &["extract", "raw.txt", "--format", "ascii", "--input-bits", "150", "--extractor", "modified-toeplitz", "--seed-file", "seed.hex", "--seed-format", "hex", "--allow-longer-seed", "--output-bits", "50", "--output-format", "hex", "-o", "out.hex", "--quiet"],
+        &[
+            "extract",
+            "raw.txt",
+            "--format",
+            "ascii",
+            "--input-bits",
+            "150",
+            "--extractor",
+            "modified-toeplitz",
+            "--seed-file",
+            "seed.hex",
+            "--seed-format",
+            "hex",
+            "--allow-longer-seed",
+            "--output-bits",
+            "50",
+            "--output-format",
+            "hex",
+            "-o",
+            "out.hex",
+            "--quiet",
+        ],
     );
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     let want = reference::modified_toeplitz(&raw.slice(0, 150), &seed.slice(0, 149), 50);
@@ -100,7 +192,30 @@ fn formats_and_input_bits() {
     // LSB-first packed output of the same.
     let o = sluice(
         d.path(),
-        &["extract", "raw.txt", "--format", "ascii", "--input-bits", "150", "--extractor", "modified-toeplitz", "--seed-file", "seed.hex", "--seed-format", "hex", "--allow-longer-seed", "--output-bits", "50", "--output-format", "packed", "--output-bit-order", "lsb", "-o", "-", "--quiet"],
+        &[
+            "extract",
+            "raw.txt",
+            "--format",
+            "ascii",
+            "--input-bits",
+            "150",
+            "--extractor",
+            "modified-toeplitz",
+            "--seed-file",
+            "seed.hex",
+            "--seed-format",
+            "hex",
+            "--allow-longer-seed",
+            "--output-bits",
+            "50",
+            "--output-format",
+            "packed",
+            "--output-bit-order",
+            "lsb",
+            "-o",
+            "-",
+            "--quiet",
+        ],
     );
     assert!(o.status.success());
     assert_eq!(o.stdout, want.to_packed(BitOrder::Lsb));
@@ -113,14 +228,135 @@ fn bad_input_is_refused_and_nothing_is_written() {
     std::fs::write(d.path().join("seed.bin"), [0u8; 2]).unwrap();
     std::fs::write(d.path().join("raw.bin"), [0u8; 4]).unwrap();
     let cases: &[(&[&str], &str)] = &[
-        (&["extract", "raw.txt", "--format", "ascii", "--extractor", "toeplitz", "--seed-file", "seed.bin", "--output-bits", "2", "-o", "out"], "raw.txt: byte 7: found 'q'"),
-        (&["extract", "raw.bin", "--extractor", "toeplitz", "--seed-file", "seed.bin", "--output-bits", "8", "-o", "out"], "needs 39 seed bits"),
-        (&["extract", "raw.bin", "--extractor", "toeplitz", "--seed-file", "seed.bin", "--output-bits", "33", "-o", "out"], "larger than the input block of 32 bits"),
-        (&["extract", "raw.bin", "--extractor", "toeplitz", "--seed-file", "seed.bin", "--output-bits", "0", "-o", "out"], "--output-bits 0"),
-        (&["extract", "raw.bin", "--extractor", "toeplitz", "--seed-file", "seed.bin", "--output-bits", "1", "--input-bits", "0", "-o", "out"], "--input-bits 0"),
-        (&["extract", "raw.bin", "--extractor", "toeplitz", "--seed-file", "seed.bin", "--output-bits", "1", "--input-bits", "64", "-o", "out", "--allow-longer-seed"], "64 bits asked for, but the input ends after 32 bits"),
-        (&["extract", "raw.bin", "--extractor", "modified-toeplitz", "--seed-file", "seed.bin", "--output-bits", "32", "-o", "out"], "must be smaller"),
-        (&["extract", "raw.bin", "--extractor", "toeplitz", "--seed-file", "seed.bin", "--output-bits", "1", "--block-bits", "5", "-o", "out"], "more than the 5"),
+        (
+            &[
+                "extract",
+                "raw.txt",
+                "--format",
+                "ascii",
+                "--extractor",
+                "toeplitz",
+                "--seed-file",
+                "seed.bin",
+                "--output-bits",
+                "2",
+                "-o",
+                "out",
+            ],
+            "raw.txt: byte 7: found 'q'",
+        ),
+        (
+            &[
+                "extract",
+                "raw.bin",
+                "--extractor",
+                "toeplitz",
+                "--seed-file",
+                "seed.bin",
+                "--output-bits",
+                "8",
+                "-o",
+                "out",
+            ],
+            "needs 39 seed bits",
+        ),
+        (
+            &[
+                "extract",
+                "raw.bin",
+                "--extractor",
+                "toeplitz",
+                "--seed-file",
+                "seed.bin",
+                "--output-bits",
+                "33",
+                "-o",
+                "out",
+            ],
+            "larger than the input block of 32 bits",
+        ),
+        (
+            &[
+                "extract",
+                "raw.bin",
+                "--extractor",
+                "toeplitz",
+                "--seed-file",
+                "seed.bin",
+                "--output-bits",
+                "0",
+                "-o",
+                "out",
+            ],
+            "--output-bits 0",
+        ),
+        (
+            &[
+                "extract",
+                "raw.bin",
+                "--extractor",
+                "toeplitz",
+                "--seed-file",
+                "seed.bin",
+                "--output-bits",
+                "1",
+                "--input-bits",
+                "0",
+                "-o",
+                "out",
+            ],
+            "--input-bits 0",
+        ),
+        (
+            &[
+                "extract",
+                "raw.bin",
+                "--extractor",
+                "toeplitz",
+                "--seed-file",
+                "seed.bin",
+                "--output-bits",
+                "1",
+                "--input-bits",
+                "64",
+                "-o",
+                "out",
+                "--allow-longer-seed",
+            ],
+            "64 bits asked for, but the input ends after 32 bits",
+        ),
+        (
+            &[
+                "extract",
+                "raw.bin",
+                "--extractor",
+                "modified-toeplitz",
+                "--seed-file",
+                "seed.bin",
+                "--output-bits",
+                "32",
+                "-o",
+                "out",
+            ],
+            "must be smaller",
+        ),
+        (
+            &[
+                "extract",
+                "raw.bin",
+                "--extractor",
+                "toeplitz",
+                "--seed-file",
+                "seed.bin",
+                "--output-bits",
+                "1",
+                "--block-bits",
+                "5",
+                "-o",
+                "out",
+            ],
+            "more than the 5",
+        ),
     ];
     for (args, msg) in cases {
         let o = sluice(d.path(), args);
@@ -130,7 +366,11 @@ fn bad_input_is_refused_and_nothing_is_written() {
         assert!(!d.path().join("out").exists(), "{args:?} left an output");
     }
     // No temporary files left behind either.
-    let leftovers: Vec<_> = std::fs::read_dir(d.path()).unwrap().filter_map(|e| e.ok()).filter(|e| e.file_name().to_string_lossy().ends_with(".tmp")).collect();
+    let leftovers: Vec<_> = std::fs::read_dir(d.path())
+        .unwrap()
+        .filter_map(|e| e.ok())
+        .filter(|e| e.file_name().to_string_lossy().ends_with(".tmp"))
+        .collect();
     assert!(leftovers.is_empty());
     // Usage errors exit 2 too.
     let o = sluice(d.path(), &["extract", "raw.bin", "--extractor", "nope"]);
@@ -140,17 +380,45 @@ fn bad_input_is_refused_and_nothing_is_written() {
 #[test]
 fn every_engine_writes_the_same_file() {
     let d = tempfile::tempdir().unwrap();
-    std::fs::write(d.path().join("raw.bin"), pseudo(11, 8 * 3000).to_packed(BitOrder::Msb)).unwrap();
-    std::fs::write(d.path().join("seed.bin"), pseudo(12, 8 * 600).to_packed(BitOrder::Msb)).unwrap();
+    std::fs::write(
+        d.path().join("raw.bin"),
+        pseudo(11, 8 * 3000).to_packed(BitOrder::Msb),
+    )
+    .unwrap();
+    std::fs::write(
+        d.path().join("seed.bin"),
+        pseudo(12, 8 * 600).to_packed(BitOrder::Msb),
+    )
+    .unwrap();
     let mut outs = Vec::new();
     for e in ["portable", "pclmul", "vpclmul", "fft"] {
         let o = sluice(
             d.path(),
-            &["extract", "raw.bin", "--extractor", "toeplitz", "--seed-file", "seed.bin", "--allow-longer-seed", "--output-bits", "1000", "--block-bits", "3777", "--engine", e, "-o", "-", "--quiet"],
+            &[
+                "extract",
+                "raw.bin",
+                "--extractor",
+                "toeplitz",
+                "--seed-file",
+                "seed.bin",
+                "--allow-longer-seed",
+                "--output-bits",
+                "1000",
+                "--block-bits",
+                "3777",
+                "--engine",
+                e,
+                "-o",
+                "-",
+                "--quiet",
+            ],
         );
         if !o.status.success() {
             // Engines this CPU lacks are refused with a clear message.
-            assert!(String::from_utf8_lossy(&o.stderr).contains("not supported"), "{e}");
+            assert!(
+                String::from_utf8_lossy(&o.stderr).contains("not supported"),
+                "{e}"
+            );
             continue;
         }
         outs.push(o.stdout);

@@ -94,7 +94,11 @@ proptest! {
 fn larger_sizes_agree_across_engines() {
     // The matrix twin is O(nm); above a few thousand bits compare the engines
     // with each other, anchored to the twin by the sizes above.
-    for &(n, m) in &[(20_000, 10_000), (64 * 300 + 17, 64 * 170 + 9), (1 << 16, 1 << 15)] {
+    for &(n, m) in &[
+        (20_000, 10_000),
+        (64 * 300 + 17, 64 * 170 + 9),
+        (1 << 16, 1 << 15),
+    ] {
         let x = bits_from(n as u64, n);
         let s = bits_from(m as u64, n + m - 1);
         let mut outs = Vec::new();
@@ -118,18 +122,26 @@ fn spec_3_4_test_vectors() {
     let s = Bits::from_ascii("00101011010101110010011").unwrap();
     for e in Engine::all_supported() {
         let mut y = Bits::zeros(8);
-        Toeplitz::with_engine(16, 8, e).unwrap().extract(&x, &s, &mut y);
+        Toeplitz::with_engine(16, 8, e)
+            .unwrap()
+            .extract(&x, &s, &mut y);
         assert_eq!(y.to_ascii(), "00101010", "{e}");
         assert_eq!(y.to_hex(Default::default()), "2a");
     }
     let s = Bits::from_ascii("001010110101011").unwrap();
     for e in Engine::all_supported() {
         let mut y = Bits::zeros(8);
-        ModifiedToeplitz::with_engine(16, 8, e).unwrap().extract(&x, &s, &mut y);
+        ModifiedToeplitz::with_engine(16, 8, e)
+            .unwrap()
+            .extract(&x, &s, &mut y);
         assert_eq!(y.to_ascii(), "01001110", "{e}");
     }
     // The twins agree with the spec too.
-    assert_eq!(reference::toeplitz(&x, &Bits::from_ascii("00101011010101110010011").unwrap(), 8).to_ascii(), "00101010");
+    assert_eq!(
+        reference::toeplitz(&x, &Bits::from_ascii("00101011010101110010011").unwrap(), 8)
+            .to_ascii(),
+        "00101010"
+    );
 }
 
 #[test]

@@ -12,9 +12,17 @@ fn vectors_dir() -> std::path::PathBuf {
 
 #[test]
 fn every_vector_passes() {
-    let out = Command::new(BIN).args(["vectors", "check"]).arg(vectors_dir()).output().unwrap();
+    let out = Command::new(BIN)
+        .args(["vectors", "check"])
+        .arg(vectors_dir())
+        .output()
+        .unwrap();
     let text = String::from_utf8_lossy(&out.stdout);
-    assert!(out.status.success(), "{text}\n{}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "{text}\n{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     assert!(text.contains(" 0 failed"), "{text}");
     assert!(!text.contains("FAIL"), "{text}");
 }
@@ -27,21 +35,35 @@ fn a_corrupted_vector_fails_with_its_name() {
     let bad = text.replace("output 2a\n", "output 2b\n");
     assert_ne!(bad, text);
     std::fs::write(dir.path().join("t.vec"), bad).unwrap();
-    let out = Command::new(BIN).args(["vectors", "check"]).arg(dir.path()).output().unwrap();
+    let out = Command::new(BIN)
+        .args(["vectors", "check"])
+        .arg(dir.path())
+        .output()
+        .unwrap();
     assert_eq!(out.status.code(), Some(1));
     let text = String::from_utf8_lossy(&out.stdout);
-    assert!(text.contains("FAIL t.vec") && text.contains("spec-3.4"), "{text}");
+    assert!(
+        text.contains("FAIL t.vec") && text.contains("spec-3.4"),
+        "{text}"
+    );
 }
 
 #[test]
 fn committed_vectors_match_the_generator() {
     let dir = tempfile::tempdir().unwrap();
-    let st = Command::new(BIN).args(["vectors", "generate", "--out"]).arg(dir.path()).status().unwrap();
+    let st = Command::new(BIN)
+        .args(["vectors", "generate", "--out"])
+        .arg(dir.path())
+        .status()
+        .unwrap();
     assert!(st.success());
     for f in ["toeplitz.vec", "modified-toeplitz.vec"] {
         let a = std::fs::read(dir.path().join(f)).unwrap();
         let b = std::fs::read(vectors_dir().join(f)).unwrap();
-        assert!(a == b, "{f}: the committed file differs from `sluice vectors generate`; regenerate it");
+        assert!(
+            a == b,
+            "{f}: the committed file differs from `sluice vectors generate`; regenerate it"
+        );
     }
 }
 
@@ -52,10 +74,17 @@ fn committed_vectors_match_the_generator() {
 #[test]
 fn numpy_recomputes_the_hashing_vectors() {
     let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/outside_check.py");
-    let out = match Command::new("python3").arg(&script).arg(vectors_dir()).output() {
+    let out = match Command::new("python3")
+        .arg(&script)
+        .arg(vectors_dir())
+        .output()
+    {
         Ok(o) => o,
         Err(e) => {
-            assert!(std::env::var_os("SLUICE_REQUIRE_OUTSIDE").is_none(), "python3 not runnable: {e}");
+            assert!(
+                std::env::var_os("SLUICE_REQUIRE_OUTSIDE").is_none(),
+                "python3 not runnable: {e}"
+            );
             eprintln!("skipped: python3 not found");
             return;
         }
@@ -70,6 +99,10 @@ fn numpy_recomputes_the_hashing_vectors() {
         return;
     }
     let text = String::from_utf8_lossy(&out.stdout);
-    assert!(out.status.success(), "{text}{}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "{text}{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     assert!(text.contains(" 0 failed"), "{text}");
 }

@@ -5,7 +5,10 @@
 //! appends bit strings of any length to a [`Write`], packing across byte
 //! boundaries. Both speak the three formats of [`Format`].
 
-use super::{copy_bits, hex_value, pack_bytes_into_words, words_for, BitOrder, Bits, Error, ErrorKind, Format};
+use super::{
+    copy_bits, hex_value, pack_bytes_into_words, words_for, BitOrder, Bits, Error, ErrorKind,
+    Format,
+};
 use std::fs::File;
 use std::io::{Read, Write};
 use std::path::{Path, PathBuf};
@@ -152,7 +155,9 @@ impl<R: Read> BlockReader<R> {
                 Ok(k) => break k,
                 Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
                 Err(e) => {
-                    return Err(Error::from(e).at_offset(self.bytes_read).in_file(&self.path))
+                    return Err(Error::from(e)
+                        .at_offset(self.bytes_read)
+                        .in_file(&self.path))
                 }
             }
         };
@@ -196,7 +201,7 @@ impl<R: Read> BlockReader<R> {
                             .in_file(&self.path))
                         }
                     };
-                    if self.qlen % 64 == 0 {
+                    if self.qlen.is_multiple_of(64) {
                         self.queue.push(0);
                     }
                     self.queue[self.qlen / 64] |= bit << (self.qlen % 64);
@@ -240,7 +245,7 @@ impl<R: Read> BlockReader<R> {
         self.queue.resize(words_for(new_len), 0);
         let mut data = data;
         // Fill the partial word byte by byte, then whole words at once.
-        while self.qlen % 64 != 0 && !data.is_empty() {
+        while !self.qlen.is_multiple_of(64) && !data.is_empty() {
             let b = match self.order {
                 BitOrder::Msb => data[0].reverse_bits(),
                 BitOrder::Lsb => data[0],
@@ -298,7 +303,7 @@ impl<W: Write> BitWriter<W> {
                 self.inner.write_all(&self.out)
             }
             Format::Packed | Format::Hex => {
-                if self.pending.is_empty() && bits.len() % 8 == 0 {
+                if self.pending.is_empty() && bits.len().is_multiple_of(8) {
                     let packed = bits.to_packed(self.order);
                     return self.emit(&packed);
                 }
@@ -385,11 +390,19 @@ mod tests {
     #[test]
     fn stream_errors_carry_offsets() {
         let data = b"0101\n01z1";
-        let mut r = BlockReader::new(&data[..], Path::new("raw.txt"), Format::Ascii, BitOrder::Msb);
+        let mut r = BlockReader::new(
+            &data[..],
+            Path::new("raw.txt"),
+            Format::Ascii,
+            BitOrder::Msb,
+        );
         let mut b = Bits::zeros(8);
         let e = r.next_block(&mut b).unwrap_err();
         assert_eq!(e.offset(), Some(7));
-        assert!(e.to_string().starts_with("raw.txt: byte 7: found 'z'"), "{e}");
+        assert!(
+            e.to_string().starts_with("raw.txt: byte 7: found 'z'"),
+            "{e}"
+        );
         let mut r = BlockReader::new(&b"abc"[..], Path::new("h"), Format::Hex, BitOrder::Msb);
         let mut b = Bits::zeros(16);
         let e = r.next_block(&mut b).unwrap_err();

@@ -145,7 +145,11 @@ impl Bits {
     /// If `i >= len`.
     #[inline]
     pub fn get(&self, i: usize) -> bool {
-        assert!(i < self.len, "bit index {i} out of range for {} bits", self.len);
+        assert!(
+            i < self.len,
+            "bit index {i} out of range for {} bits",
+            self.len
+        );
         (self.words[i / 64] >> (i % 64)) & 1 == 1
     }
 
@@ -155,7 +159,11 @@ impl Bits {
     /// If `i >= len`.
     #[inline]
     pub fn set(&mut self, i: usize, v: bool) {
-        assert!(i < self.len, "bit index {i} out of range for {} bits", self.len);
+        assert!(
+            i < self.len,
+            "bit index {i} out of range for {} bits",
+            self.len
+        );
         let w = &mut self.words[i / 64];
         let m = 1u64 << (i % 64);
         if v {
@@ -186,7 +194,7 @@ impl Bits {
 
     /// Appends one bit.
     pub fn push(&mut self, v: bool) {
-        if self.len % 64 == 0 {
+        if self.len.is_multiple_of(64) {
             self.words.push(0);
         }
         if v {
@@ -236,7 +244,7 @@ impl Bits {
         for (a, b) in self.words[..full].iter_mut().zip(&other.words[..full]) {
             *a ^= b;
         }
-        if n % 64 != 0 {
+        if !n.is_multiple_of(64) {
             self.words[full] ^= other.words[full] & tail_mask(n);
         }
     }

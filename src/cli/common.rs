@@ -7,10 +7,17 @@ use std::process::ExitCode;
 /// pipe (the reader went away) is not an error.
 pub fn report_error(e: &anyhow::Error) -> ExitCode {
     for cause in e.chain() {
-        if let Some(io) = cause.downcast_ref::<std::io::Error>() {
-            if io.kind() == std::io::ErrorKind::BrokenPipe {
-                return ExitCode::SUCCESS;
-            }
+        let broken = cause
+            .downcast_ref::<std::io::Error>()
+            .map(|io| io.kind())
+            .or_else(|| {
+                cause
+                    .downcast_ref::<serde_json::Error>()
+                    .and_then(|j| j.io_error_kind())
+            })
+            == Some(std::io::ErrorKind::BrokenPipe);
+        if broken {
+            return ExitCode::SUCCESS;
         }
     }
     let mut msg = format!("error: {e}");

@@ -80,7 +80,8 @@ pub struct VerifyArgs {
 }
 
 fn parse_engine(s: &str) -> Result<Engine, String> {
-    Engine::from_name(s).ok_or_else(|| format!("unknown engine {s:?}: use auto, portable, pclmul, vpclmul or fft"))
+    Engine::from_name(s)
+        .ok_or_else(|| format!("unknown engine {s:?}: use auto, portable, pclmul, vpclmul or fft"))
 }
 
 /// The planned extractor, the seed and the input source, after checking
@@ -106,7 +107,10 @@ fn resolve(c: &Common) -> anyhow::Result<Resolved> {
             let have = md.len() * 8;
             if let Some(want) = c.input_bits.or(c.block_bits.map(|b| b as u64)) {
                 if want > have {
-                    bail!("{}: {want} bits asked for, but the input ends after {have} bits", c.input.display());
+                    bail!(
+                        "{}: {want} bits asked for, but the input ends after {have} bits",
+                        c.input.display()
+                    );
                 }
             }
         }
@@ -117,9 +121,13 @@ fn resolve(c: &Common) -> anyhow::Result<Resolved> {
             bail!("--block-bits {b} is larger than --input-bits {t}: no block would be hashed")
         }
         (Some(b), _) => (b, Source::File(input_file)),
-        (None, Some(t)) => (usize::try_from(t).context("--input-bits too large for this machine")?, Source::File(input_file)),
+        (None, Some(t)) => (
+            usize::try_from(t).context("--input-bits too large for this machine")?,
+            Source::File(input_file),
+        ),
         (None, None) => {
-            let bits = sluice::bits::io::read_bits(&c.input, input_file.format, input_file.order, None)?;
+            let bits =
+                sluice::bits::io::read_bits(&c.input, input_file.format, input_file.order, None)?;
             if bits.is_empty() {
                 bail!("{}: the input holds no bits", c.input.display());
             }
@@ -150,7 +158,12 @@ fn resolve(c: &Common) -> anyhow::Result<Resolved> {
             Box::new(ModifiedToeplitz::with_engine(n, m, c.engine)?)
         }
     };
-    let seed = pipeline::read_seed(&c.seed_file, c.seed_format.into(), plan.seed_bits(), c.allow_longer_seed)?;
+    let seed = pipeline::read_seed(
+        &c.seed_file,
+        c.seed_format.into(),
+        plan.seed_bits(),
+        c.allow_longer_seed,
+    )?;
     Ok(Resolved { plan, seed, source })
 }
 
@@ -246,7 +259,11 @@ pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
     if c.json {
         common::print_json(&v)?;
     } else if v.matches {
-        println!("match: {} bits of {} agree with the recomputed output", v.computed_bits, a.claimed.display());
+        println!(
+            "match: {} bits of {} agree with the recomputed output",
+            v.computed_bits,
+            a.claimed.display()
+        );
     } else {
         let first = v.first_difference.unwrap_or(0);
         println!(
@@ -255,11 +272,21 @@ pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
             v.differing_bits
         );
         if v.claimed_bits < v.computed_bits {
-            println!("the claimed output holds {} bits, the recomputed one {}", v.claimed_bits, v.computed_bits);
+            println!(
+                "the claimed output holds {} bits, the recomputed one {}",
+                v.claimed_bits, v.computed_bits
+            );
         }
         if v.extra_claimed_bits > 0 {
-            println!("the claimed output has {} bits beyond the recomputed {}", v.extra_claimed_bits, v.computed_bits);
+            println!(
+                "the claimed output has {} bits beyond the recomputed {}",
+                v.extra_claimed_bits, v.computed_bits
+            );
         }
     }
-    Ok(if v.matches { ExitCode::SUCCESS } else { ExitCode::from(1) })
+    Ok(if v.matches {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    })
 }

@@ -5,7 +5,9 @@
 //! counts as success; `--json` prints one JSON document on standard output
 //! for scripts; progress bars appear only on a terminal.
 
+mod bench;
 mod common;
+mod demo;
 mod extract;
 mod vectors;
 
@@ -26,8 +28,12 @@ enum Command {
     Extract(extract::ExtractArgs),
     /// Recompute an output and check a claimed one against it
     Verify(extract::VerifyArgs),
+    /// Run the main job on a built-in simulated source, start to finish
+    Demo(demo::DemoArgs),
     /// Check the published test vectors
     Vectors(vectors::VectorsArgs),
+    /// Measure extraction throughput on this machine
+    Bench(bench::BenchArgs),
 }
 
 /// Runs the command line and maps the outcome to an exit status.
@@ -37,13 +43,19 @@ pub fn main() -> ExitCode {
         Err(e) => {
             // Help and version go to stdout with status 0; usage errors exit 2.
             let _ = e.print();
-            return if e.use_stderr() { ExitCode::from(2) } else { ExitCode::SUCCESS };
+            return if e.use_stderr() {
+                ExitCode::from(2)
+            } else {
+                ExitCode::SUCCESS
+            };
         }
     };
     let result: anyhow::Result<ExitCode> = match cli.command {
         Command::Extract(a) => extract::run_extract(a),
         Command::Verify(a) => extract::run_verify(a),
         Command::Vectors(a) => vectors::run(a),
+        Command::Demo(a) => demo::run(a),
+        Command::Bench(a) => bench::run(a),
     };
     match result {
         Ok(code) => code,

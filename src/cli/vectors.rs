@@ -60,14 +60,22 @@ fn check(dir: &Path, json: bool) -> anyhow::Result<ExitCode> {
     let mut all: Vec<(String, Outcome)> = Vec::new();
     let mut stdout = std::io::stdout().lock();
     for f in &files {
-        let text = std::fs::read_to_string(f).with_context(|| format!("{}: cannot read", f.display()))?;
+        let text =
+            std::fs::read_to_string(f).with_context(|| format!("{}: cannot read", f.display()))?;
         let cases = vectors::parse(&text).with_context(|| format!("{}", f.display()))?;
-        let fname = f.file_name().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default();
+        let fname = f
+            .file_name()
+            .map(|s| s.to_string_lossy().into_owned())
+            .unwrap_or_default();
         for (i, c) in cases.iter().enumerate() {
             let outcomes = vectors::check_case(c);
             if !json {
                 let pass = outcomes.iter().all(|o| o.pass) && !outcomes.is_empty();
-                let engines: Vec<&str> = outcomes.iter().filter(|o| o.mode == "bound").map(|o| o.engine.as_str()).collect();
+                let engines: Vec<&str> = outcomes
+                    .iter()
+                    .filter(|o| o.mode == "bound")
+                    .map(|o| o.engine.as_str())
+                    .collect();
                 writeln!(
                     stdout,
                     "{} {fname} #{} {} (n={}, m={}; engines {}; one-shot and bound)",
@@ -79,14 +87,23 @@ fn check(dir: &Path, json: bool) -> anyhow::Result<ExitCode> {
                     engines.join(",")
                 )?;
                 for o in outcomes.iter().filter(|o| !o.pass) {
-                    writeln!(stdout, "     {} {}: {}", o.engine, o.mode, o.detail.as_deref().unwrap_or("failed"))?;
+                    writeln!(
+                        stdout,
+                        "     {} {}: {}",
+                        o.engine,
+                        o.mode,
+                        o.detail.as_deref().unwrap_or("failed")
+                    )?;
                 }
             }
             all.extend(outcomes.into_iter().map(|o| (fname.clone(), o)));
         }
     }
     let failed = all.iter().filter(|(_, o)| !o.pass).count();
-    let cases: std::collections::BTreeSet<(&str, &str)> = all.iter().map(|(f, o)| (f.as_str(), o.case.as_str())).collect();
+    let cases: std::collections::BTreeSet<(&str, &str)> = all
+        .iter()
+        .map(|(f, o)| (f.as_str(), o.case.as_str()))
+        .collect();
     if json {
         let results: Vec<serde_json::Value> = all
             .iter()
@@ -99,9 +116,20 @@ fn check(dir: &Path, json: bool) -> anyhow::Result<ExitCode> {
             "results": results,
         }))?;
     } else {
-        writeln!(stdout, "{} cases, {} checks: {} passed, {} failed", cases.len(), all.len(), all.len() - failed, failed)?;
+        writeln!(
+            stdout,
+            "{} cases, {} checks: {} passed, {} failed",
+            cases.len(),
+            all.len(),
+            all.len() - failed,
+            failed
+        )?;
     }
-    Ok(if failed == 0 { ExitCode::SUCCESS } else { ExitCode::from(1) })
+    Ok(if failed == 0 {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    })
 }
 
 /// The sizes of the hashing vectors: edge cases, pseudo-random sizes up to
@@ -139,7 +167,14 @@ fn hashing_sizes(modified: bool) -> Vec<(String, usize, usize, bool)> {
         }
         v.push((format!("edge-n{n}-m{m}"), n, m, true));
     }
-    let r = shake_bits(if modified { "sluice-vectors/1/sizes/modified" } else { "sluice-vectors/1/sizes/toeplitz" }, 64 * 20);
+    let r = shake_bits(
+        if modified {
+            "sluice-vectors/1/sizes/modified"
+        } else {
+            "sluice-vectors/1/sizes/toeplitz"
+        },
+        64 * 20,
+    );
     for i in 0..10 {
         let w = r.words()[2 * i];
         let f = r.words()[2 * i + 1];
@@ -175,7 +210,10 @@ fn generate(dir: &Path) -> anyhow::Result<ExitCode> {
             let d = if modified { n - 1 } else { n + m - 1 };
             let s = shake_bits(&format!("{label}/seed"), d);
             let y = compute(modified, &x, &s, m)?;
-            writeln!(text, "\ncase {name}\nextractor {family}\ninput-bits {n}\noutput-bits {m}")?;
+            writeln!(
+                text,
+                "\ncase {name}\nextractor {family}\ninput-bits {n}\noutput-bits {m}"
+            )?;
             if full {
                 writeln!(text, "input {}", x.to_hex(BitOrder::Msb))?;
                 writeln!(text, "seed {}", s.to_hex(BitOrder::Msb))?;
@@ -205,11 +243,18 @@ fn generate(dir: &Path) -> anyhow::Result<ExitCode> {
 fn compute(modified: bool, x: &Bits, s: &Bits, m: usize) -> anyhow::Result<Bits> {
     let n = x.len();
     if (n as u128) * (m as u128) <= 1 << 28 {
-        return Ok(if modified { reference::modified_toeplitz(x, s, m) } else { reference::toeplitz(x, s, m) });
+        return Ok(if modified {
+            reference::modified_toeplitz(x, s, m)
+        } else {
+            reference::toeplitz(x, s, m)
+        });
     }
     let run = |e: Engine| -> anyhow::Result<Bits> {
-        let plan: Box<dyn Extractor> =
-            if modified { Box::new(ModifiedToeplitz::with_engine(n, m, e)?) } else { Box::new(Toeplitz::with_engine(n, m, e)?) };
+        let plan: Box<dyn Extractor> = if modified {
+            Box::new(ModifiedToeplitz::with_engine(n, m, e)?)
+        } else {
+            Box::new(Toeplitz::with_engine(n, m, e)?)
+        };
         let mut y = Bits::zeros(m);
         plan.extract(x, s, &mut y);
         Ok(y)

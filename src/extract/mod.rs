@@ -40,7 +40,10 @@ impl Engine {
 
     /// Every engine this CPU can run, slowest first.
     pub fn all_supported() -> Vec<Engine> {
-        let mut v: Vec<Engine> = Backend::all_supported().into_iter().map(Engine::Clmul).collect();
+        let mut v: Vec<Engine> = Backend::all_supported()
+            .into_iter()
+            .map(Engine::Clmul)
+            .collect();
         v.push(Engine::Fft);
         v
     }

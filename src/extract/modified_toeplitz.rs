@@ -93,6 +93,7 @@ struct Seeded<'a> {
 
 impl SeededExtractor for Seeded<'_> {
     fn extract(&self, input: &Bits, out: &mut Bits) {
-        self.plan.run(input, out, |tail, o| self.tail.extract(tail, o))
+        self.plan
+            .run(input, out, |tail, o| self.tail.extract(tail, o))
     }
 }

@@ -23,7 +23,11 @@ fn from_bitvec(v: &BitVec<u8, Lsb0>) -> Bits {
 pub fn toeplitz(x: &Bits, seed: &Bits, m: usize) -> Bits {
     let n = x.len();
     assert!(m >= 1 && m <= n, "toeplitz: m = {m} must be in 1..={n}");
-    assert_eq!(seed.len(), n + m - 1, "toeplitz: seed must have n + m - 1 bits");
+    assert_eq!(
+        seed.len(),
+        n + m - 1,
+        "toeplitz: seed must have n + m - 1 bits"
+    );
     let xv = to_bitvec(x);
     let sv = to_bitvec(seed);
     let mut y: BitVec<u8, Lsb0> = BitVec::repeat(false, m);
@@ -45,8 +49,15 @@ pub fn toeplitz(x: &Bits, seed: &Bits, m: usize) -> Bits {
 /// If `seed` does not have `n - 1` bits or `m` is not in `1..n`.
 pub fn modified_toeplitz(x: &Bits, seed: &Bits, m: usize) -> Bits {
     let n = x.len();
-    assert!(m >= 1 && m < n, "modified toeplitz: m = {m} must be in 1..{n}");
-    assert_eq!(seed.len(), n - 1, "modified toeplitz: seed must have n - 1 bits");
+    assert!(
+        m >= 1 && m < n,
+        "modified toeplitz: m = {m} must be in 1..{n}"
+    );
+    assert_eq!(
+        seed.len(),
+        n - 1,
+        "modified toeplitz: seed must have n - 1 bits"
+    );
     let xv = to_bitvec(x);
     let sv = to_bitvec(seed);
     let nt = n - m;

@@ -178,12 +178,22 @@ impl SeededExtractor for Seeded<'_> {
 }
 
 /// Checks `1 <= m <= max_m` and `n >= 1`.
-pub(crate) fn check_sizes(family: &'static str, n: usize, m: usize, max_m: usize) -> Result<(), Error> {
+pub(crate) fn check_sizes(
+    family: &'static str,
+    n: usize,
+    m: usize,
+    max_m: usize,
+) -> Result<(), Error> {
     if n == 0 {
         return Err(Error::EmptyInput { family });
     }
     if m == 0 || m > max_m {
-        return Err(Error::OutputLength { family, n, m, max: max_m });
+        return Err(Error::OutputLength {
+            family,
+            n,
+            m,
+            max: max_m,
+        });
     }
     Ok(())
 }

@@ -46,7 +46,8 @@ pub fn rounding_error_bound(k: u32, nx: usize, ny: usize) -> f64 {
     let k = k as f64;
     // (1+e)^(3k) (1+e sqrt5)^(3k+1) (1+b)^(3k) - 1, computed via ln_1p / exp_m1
     // so that the tiny excess over 1 is not lost.
-    let ln = 3.0 * k * e.ln_1p() + (3.0 * k + 1.0) * (e * 5f64.sqrt()).ln_1p() + 3.0 * k * b.ln_1p();
+    let ln =
+        3.0 * k * e.ln_1p() + (3.0 * k + 1.0) * (e * 5f64.sqrt()).ln_1p() + 3.0 * k * b.ln_1p();
     (nx as f64).sqrt() * (ny as f64).sqrt() * ln.exp_m1()
 }
 
@@ -64,7 +65,11 @@ pub struct FftWindow {
 
 impl std::fmt::Debug for FftWindow {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.debug_struct("FftWindow").field("n", &self.n).field("m", &self.m).field("len", &self.len).finish()
+        f.debug_struct("FftWindow")
+            .field("n", &self.n)
+            .field("m", &self.m)
+            .field("len", &self.len)
+            .finish()
     }
 }
 
@@ -92,7 +97,13 @@ impl FftWindow {
         let mut planner = RealFftPlanner::<f64>::new();
         let fwd = planner.plan_fft_forward(len);
         let inv = planner.plan_fft_inverse(len);
-        Some(FftWindow { n, m, len, fwd, inv })
+        Some(FftWindow {
+            n,
+            m,
+            len,
+            fwd,
+            inv,
+        })
     }
 
     /// Whether the rounding bound covers an `n`-bit input and `m` output
@@ -240,14 +251,21 @@ mod tests {
             st ^= st << 17;
             st
         };
-        for &(n, m) in &[(1usize, 1usize), (3, 2), (64, 1), (200, 200), (1000, 500), (4097, 2049)] {
+        for &(n, m) in &[
+            (1usize, 1usize),
+            (3, 2),
+            (64, 1),
+            (200, 200),
+            (1000, 500),
+            (4097, 2049),
+        ] {
             let sbits = n + m - 1;
             let mut s: Vec<u64> = (0..sbits.div_ceil(64)).map(|_| next()).collect();
             let mut x: Vec<u64> = (0..n.div_ceil(64)).map(|_| next()).collect();
-            if sbits % 64 != 0 {
+            if !sbits.is_multiple_of(64) {
                 *s.last_mut().unwrap() &= (1 << (sbits % 64)) - 1;
             }
-            if n % 64 != 0 {
+            if !n.is_multiple_of(64) {
                 *x.last_mut().unwrap() &= (1 << (n % 64)) - 1;
             }
             let f = FftWindow::new(n, m).unwrap();

@@ -45,10 +45,17 @@ impl MiddleKernel {
     /// # Panics
     /// If the backend is not supported here or `base` does not suit it.
     pub fn new(backend: Backend, base: usize) -> Self {
-        assert!(backend.is_supported(), "backend {} not supported on this CPU", backend.name());
+        assert!(
+            backend.is_supported(),
+            "backend {} not supported on this CPU",
+            backend.name()
+        );
         assert!(base >= 1, "base size must be positive");
         if backend == Backend::Vpclmul {
-            assert!(clmul::vpclmul::supports_base(base), "vpclmul base {base} is not a multiple of 8 in 8..=64");
+            assert!(
+                clmul::vpclmul::supports_base(base),
+                "vpclmul base {base} is not a multiple of 8 in 8..=64"
+            );
         }
         MiddleKernel { backend, base }
     }
@@ -67,7 +74,7 @@ impl MiddleKernel {
     pub fn scratch_len(&self, n: usize) -> usize {
         let mut total = 0;
         let mut size = n;
-        while size > self.base && size % 2 == 0 {
+        while size > self.base && size.is_multiple_of(2) {
             let h = size / 2;
             total += h + (2 * h - 1) + 2 * h;
             size = h;
@@ -90,7 +97,10 @@ impl MiddleKernel {
             out.len(),
             2 * n
         );
-        assert!(scratch.len() >= self.scratch_len(n), "middle product: scratch too small");
+        assert!(
+            scratch.len() >= self.scratch_len(n),
+            "middle product: scratch too small"
+        );
         self.mp_rec(a, x, out, scratch);
     }
 
@@ -179,8 +189,16 @@ const MUL_BASE: usize = 16;
 /// # Panics
 /// If `c` has the wrong length or the backend is not supported.
 pub fn mul(backend: Backend, a: &[u64], b: &[u64], c: &mut [u64]) {
-    assert_eq!(c.len(), a.len() + b.len(), "product buffer: want a.len() + b.len() words");
-    assert!(backend.is_supported(), "backend {} not supported on this CPU", backend.name());
+    assert_eq!(
+        c.len(),
+        a.len() + b.len(),
+        "product buffer: want a.len() + b.len() words"
+    );
+    assert!(
+        backend.is_supported(),
+        "backend {} not supported on this CPU",
+        backend.name()
+    );
     c.fill(0);
     if a.is_empty() || b.is_empty() {
         return;
@@ -282,7 +300,17 @@ mod tests {
     #[test]
     fn middle_product_matches_definition_for_every_backend() {
         for be in Backend::all_supported() {
-            for &(base, n) in &[(8, 8), (8, 16), (8, 64), (16, 128), (24, 96), (1, 1), (3, 12), (5, 5), (7, 56)] {
+            for &(base, n) in &[
+                (8, 8),
+                (8, 16),
+                (8, 64),
+                (16, 128),
+                (24, 96),
+                (1, 1),
+                (3, 12),
+                (5, 5),
+                (7, 56),
+            ] {
                 if be == Backend::Vpclmul && !clmul::vpclmul::supports_base(base) {
                     continue;
                 }
@@ -300,7 +328,15 @@ mod tests {
     #[test]
     fn full_product_matches_bitwise_product() {
         for be in Backend::all_supported() {
-            for &(na, nb) in &[(1, 1), (3, 5), (16, 16), (17, 40), (100, 33), (64, 64), (130, 129)] {
+            for &(na, nb) in &[
+                (1, 1),
+                (3, 5),
+                (16, 16),
+                (17, 40),
+                (100, 33),
+                (64, 64),
+                (130, 129),
+            ] {
                 let a = words(na as u64, na);
                 let b = words(nb as u64 + 7, nb);
                 let mut c = vec![0u64; na + nb];

@@ -138,13 +138,21 @@ impl ToeplitzWindow {
     /// allocation once they have the plan's sizes).
     pub fn prepare_into(&self, seed: &[u64], into: &mut PreparedSeed) {
         let seed_bits = self.seed_bits();
-        assert!(seed.len() >= words_for(seed_bits), "seed: want {} words", words_for(seed_bits));
+        assert!(
+            seed.len() >= words_for(seed_bits),
+            "seed: want {} words",
+            words_for(seed_bits)
+        );
         let sw = words_for(seed_bits + self.p);
         let shifted = &mut into.shifted;
         shifted.clear();
         shifted.resize(sw, 0);
         for (i, &w) in seed[..words_for(seed_bits)].iter().enumerate() {
-            let w = if i == words_for(seed_bits) - 1 { w & tail_mask(seed_bits) } else { w };
+            let w = if i == words_for(seed_bits) - 1 {
+                w & tail_mask(seed_bits)
+            } else {
+                w
+            };
             if self.p == 0 {
                 shifted[i] = w;
             } else {
@@ -174,8 +182,18 @@ impl ToeplitzWindow {
     /// # Panics
     /// On wrong lengths or too little scratch.
     pub fn compute(&self, seed: &PreparedSeed, x: &[u64], out: &mut [u64], scratch: &mut [u64]) {
-        assert!(x.len() == self.b, "input: want {} words, got {}", self.b, x.len());
-        assert!(out.len() == self.mw, "output: want {} words, got {}", self.mw, out.len());
+        assert!(
+            x.len() == self.b,
+            "input: want {} words, got {}",
+            self.b,
+            x.len()
+        );
+        assert!(
+            out.len() == self.mw,
+            "output: want {} words, got {}",
+            self.mw,
+            out.len()
+        );
         assert!(scratch.len() >= self.scratch_len(), "scratch too small");
         let n_tile = self.tile;
         let (xp, rest) = scratch.split_at_mut(self.cols_pad);
@@ -221,7 +239,10 @@ fn tail_mask(len: usize) -> u64 {
 /// of `base^2` word products, plus a linear term per Karatsuba level.
 fn choose_tile(rows: usize, cols: usize, backend: Backend, max_base: usize) -> (usize, usize) {
     let bases: Vec<usize> = match backend {
-        Backend::Vpclmul => (8..=max_base.min(64)).step_by(8).filter(|&b| vpclmul::supports_base(b)).collect(),
+        Backend::Vpclmul => (8..=max_base.min(64))
+            .step_by(8)
+            .filter(|&b| vpclmul::supports_base(b))
+            .collect(),
         _ => (1..=max_base.max(1)).collect(),
     };
     let mut best: Option<(f64, usize, usize)> = None;
@@ -312,7 +333,11 @@ mod tests {
                     let mut out = vec![0u64; words_for(m)];
                     let mut scratch = vec![0xdead_beefu64; plan.scratch_len()];
                     plan.compute(&prep, &x, &mut out, &mut scratch);
-                    assert_eq!(out, window_oracle(&s, &x, n, m), "{be:?} n={n} m={m} base<={max_base}");
+                    assert_eq!(
+                        out,
+                        window_oracle(&s, &x, n, m),
+                        "{be:?} n={n} m={m} base<={max_base}"
+                    );
                 }
             }
         }

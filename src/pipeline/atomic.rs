@@ -28,7 +28,12 @@ impl AtomicFile {
         };
         let name = dest
             .file_name()
-            .ok_or_else(|| io::Error::new(io::ErrorKind::InvalidInput, format!("{}: not a file name", dest.display())))?
+            .ok_or_else(|| {
+                io::Error::new(
+                    io::ErrorKind::InvalidInput,
+                    format!("{}: not a file name", dest.display()),
+                )
+            })?
             .to_string_lossy()
             .into_owned();
         let mut tag = [0u8; 6];
@@ -70,7 +75,11 @@ impl AtomicFile {
         drop(f);
         fs::rename(&self.tmp, &self.dest)?;
         if let Some(dir) = self.dest.parent() {
-            let dir = if dir.as_os_str().is_empty() { Path::new(".") } else { dir };
+            let dir = if dir.as_os_str().is_empty() {
+                Path::new(".")
+            } else {
+                dir
+            };
             if let Ok(d) = File::open(dir) {
                 let _ = d.sync_all();
             }
@@ -122,7 +131,10 @@ mod tests {
         #[cfg(unix)]
         {
             use std::os::unix::fs::PermissionsExt;
-            assert_eq!(fs::metadata(&dest).unwrap().permissions().mode() & 0o777, 0o600);
+            assert_eq!(
+                fs::metadata(&dest).unwrap().permissions().mode() & 0o777,
+                0o600
+            );
         }
         let dest2 = dir.path().join("never.bin");
         let mut g = AtomicFile::create(&dest2, false).unwrap();

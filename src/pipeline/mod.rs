@@ -64,7 +64,12 @@ impl Source {
             Source::File(f) => BlockReader::new(open_input(&f.path)?, &f.path, f.format, f.order),
             Source::Memory { bits, name } => {
                 let bytes = bits.to_packed(BitOrder::Msb);
-                BlockReader::new(Box::new(io::Cursor::new(bytes)), name, Format::Packed, BitOrder::Msb)
+                BlockReader::new(
+                    Box::new(io::Cursor::new(bytes)),
+                    name,
+                    Format::Packed,
+                    BitOrder::Msb,
+                )
             }
         })
     }
@@ -184,7 +189,8 @@ impl Run<'_> {
         // Packed and hex files pad the last byte with zero bits; more than
         // that, or nonzero padding, is a difference.
         let pad = (8 - v.computed_bits % 8) % 8;
-        let pad_ok = claimed.format != Format::Ascii && rest.len() as u64 == pad && rest.count_ones() == 0;
+        let pad_ok =
+            claimed.format != Format::Ascii && rest.len() as u64 == pad && rest.count_ones() == 0;
         if !rest.is_empty() && !pad_ok {
             v.extra_claimed_bits = rest.len() as u64;
             v.first_difference.get_or_insert(v.computed_bits);
@@ -310,7 +316,11 @@ impl Sink {
             Sink::Stdout(BitWriter::new(io::stdout(), out.format, out.order))
         } else {
             // Outputs are secret: owner-only from creation.
-            Sink::File(BitWriter::new(AtomicFile::create(&out.path, true)?, out.format, out.order))
+            Sink::File(BitWriter::new(
+                AtomicFile::create(&out.path, true)?,
+                out.format,
+                out.order,
+            ))
         })
     }
 
@@ -332,7 +342,12 @@ impl Sink {
 /// Reads a seed file: `needed` bits, refusing a shorter file and (unless
 /// `allow_longer`) one that holds more than `needed` bits rounded up to
 /// whole bytes.
-pub fn read_seed(path: &Path, format: Format, needed: usize, allow_longer: bool) -> Result<Bits, SeedFileError> {
+pub fn read_seed(
+    path: &Path,
+    format: Format,
+    needed: usize,
+    allow_longer: bool,
+) -> Result<Bits, SeedFileError> {
     let all = crate::bits::io::read_bits(path, format, BitOrder::Msb, None)?;
     let have = all.len();
     if have < needed {
@@ -379,4 +394,3 @@ pub enum SeedFileError {
         needed: usize,
     },
 }
-

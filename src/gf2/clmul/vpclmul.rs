@@ -6,7 +6,7 @@ use core::arch::x86_64::*;
 
 /// Row counts the vector base case handles (multiples of 8 up to 64).
 pub const fn supports_base(b: usize) -> bool {
-    b % 8 == 0 && b >= 8 && b <= 64
+    b.is_multiple_of(8) && b >= 8 && b <= 64
 }
 
 /// Base case of the word-level middle product; same contract as
@@ -62,8 +62,14 @@ unsafe fn mp_groups<const G: usize>(a: &[u64], x: &[u64], out: &mut [u64]) {
         let r1 = _mm512_permutex2var_epi64(even[g], hi_idx, odd[g]);
         let p0 = op.add(16 * g) as *mut __m512i;
         let p1 = op.add(16 * g + 8) as *mut __m512i;
-        _mm512_storeu_si512(p0 as *mut _, _mm512_xor_si512(_mm512_loadu_si512(p0 as *const _), r0));
-        _mm512_storeu_si512(p1 as *mut _, _mm512_xor_si512(_mm512_loadu_si512(p1 as *const _), r1));
+        _mm512_storeu_si512(
+            p0 as *mut _,
+            _mm512_xor_si512(_mm512_loadu_si512(p0 as *const _), r0),
+        );
+        _mm512_storeu_si512(
+            p1 as *mut _,
+            _mm512_xor_si512(_mm512_loadu_si512(p1 as *const _), r1),
+        );
     }
 }
 
@@ -81,7 +87,10 @@ pub unsafe fn xor_into(dst: &mut [u64], src: &[u64]) {
         let s = src.as_ptr().add(i) as *const __m512i;
         _mm512_storeu_si512(
             d as *mut _,
-            _mm512_xor_si512(_mm512_loadu_si512(d as *const _), _mm512_loadu_si512(s as *const _)),
+            _mm512_xor_si512(
+                _mm512_loadu_si512(d as *const _),
+                _mm512_loadu_si512(s as *const _),
+            ),
         );
         i += 8;
     }
