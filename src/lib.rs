@@ -27,3 +27,4 @@
 pub mod bits;
 pub mod extract;
 pub mod gf2;
+pub mod plan;
