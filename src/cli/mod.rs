@@ -6,6 +6,7 @@
 //! for scripts; progress bars appear only on a terminal.
 
 mod common;
+mod plan;
 
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
@@ -21,12 +22,16 @@ struct Cli {
 #[derive(Subcommand)]
 enum Command {
     // Each command is one variant; its options live in its own module.
+    /// Compare the extractors for your security inputs and pick one.
+    Plan(plan::PlanArgs),
 }
 
 /// Runs the command line and maps the outcome to an exit status.
 pub fn main() -> ExitCode {
     let cli = Cli::parse();
-    let result: anyhow::Result<ExitCode> = match cli.command {};
+    let result: anyhow::Result<ExitCode> = match cli.command {
+        Command::Plan(args) => plan::run(args),
+    };
     match result {
         Ok(code) => code,
         Err(e) => common::report_error(&e),

@@ -23,8 +23,7 @@ listed for each use";
 
 /// What the printed `eps_total` means when the certification can abort
 /// (`spec/hashing-and-composition.md` 5, "Protocols that can abort").
-pub const MEANING_IF_ABORT: &str = "the certification can abort, so eps_total bounds \
-Pr[accept] times the distance between the output (given acceptance) and ideal uniform bits; \
+pub const MEANING_IF_ABORT: &str = "eps_total bounds Pr[accept] times the distance between the output (given acceptance) and ideal uniform bits; \
 equivalently, the distance between the real run and an ideal one that aborts exactly when \
 the real one does and otherwise outputs uniform bits independent of the seeds and of the \
 adversary's information. It does NOT bound the distance given acceptance alone, unless \

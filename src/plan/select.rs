@@ -331,8 +331,8 @@ pub fn plan_one(
 /// Evaluates every construction of [`CONSTRUCTIONS`] and picks one for the
 /// objective, with a one-sentence reason. Invalid inputs are refused before
 /// anything is evaluated; a construction that cannot meet the target is a
-/// refused row. With [`Objective::Fastest`], rows the model cannot price are
-/// not eligible.
+/// refused row. With [`Objective::Fastest`], nothing is chosen unless the
+/// model prices every planned row.
 pub fn select(input: &SelectorInput, model: &dyn ThroughputModel) -> Result<Selection, Error> {
     input.validate()?;
     let rows: Vec<Row> = CONSTRUCTIONS
@@ -347,6 +347,11 @@ pub fn select(input: &SelectorInput, model: &dyn ThroughputModel) -> Result<Sele
         .enumerate()
         .filter_map(|(i, r)| r.outcome.as_ref().ok().map(|p| (i, p)))
         .collect();
+    let unpriced: Vec<String> = ok
+        .iter()
+        .filter(|(_, p)| p.seconds_per_block.is_none())
+        .map(|(i, _)| rows[*i].construction.name())
+        .collect();
     let pick = match input.objective {
         Objective::MostOutput => ok
             .iter()
@@ -356,11 +361,14 @@ pub fn select(input: &SelectorInput, model: &dyn ThroughputModel) -> Result<Sele
             .iter()
             .min_by(|a, b| a.1.d.cmp(&b.1.d).then(b.1.m.cmp(&a.1.m)))
             .map(|x| x.0),
-        Objective::Fastest => ok
+        // Only when every planned row is priced: a choice among some rows
+        // would not be "the fastest".
+        Objective::Fastest if unpriced.is_empty() => ok
             .iter()
             .filter_map(|(i, p)| p.seconds_per_block.map(|s| (*i, s, p.m)))
             .min_by(|a, b| a.1.total_cmp(&b.1).then(b.2.cmp(&a.2)))
             .map(|x| x.0),
+        Objective::Fastest => None,
     };
     let reason = match pick {
         Some(i) => {
@@ -390,9 +398,10 @@ pub fn select(input: &SelectorInput, model: &dyn ThroughputModel) -> Result<Sele
                 .unwrap_or_default();
             format!("no construction meets the error target: {why}")
         }
-        None => "no construction has a measured speed on this machine, so none can be \
-                 chosen as fastest"
-            .to_string(),
+        None => format!(
+            "the speed of {} is not measured on this machine, so none can be chosen as fastest",
+            unpriced.join(", ")
+        ),
     };
     Ok(Selection {
         rows,
@@ -461,6 +470,13 @@ mod tests {
         }
     }
 
+    struct AllPriced;
+    impl ThroughputModel for AllPriced {
+        fn seconds_per_unit(&self, unit: WorkUnit) -> Option<f64> {
+            Fixed.seconds_per_unit(unit).or(Some(1e-9))
+        }
+    }
+
     // Hashing rows agree with spec/hashing-and-composition.md 5, Table 7
     // (eps_total = 1e-9: m = 838800); modified Toeplitz has the same m and a
     // seed of n - 1 bits (3.2), so it wins most-output on the tie.
@@ -496,8 +512,16 @@ mod tests {
         assert_eq!(chosen.construction.name(), "trevisan-ph-poly-c1");
         let s = select(&input(Objective::Fastest), &NoSpeeds).unwrap();
         assert_eq!(s.chosen, None);
-        assert!(s.reason.contains("no construction has a measured speed"));
+        assert!(
+            s.reason.contains("is not measured on this machine"),
+            "{}",
+            s.reason
+        );
+        // IP is not priced by this model: no choice.
         let s = select(&input(Objective::Fastest), &Fixed).unwrap();
+        assert_eq!(s.chosen, None);
+        assert!(s.reason.contains("trevisan-ip"), "{}", s.reason);
+        let s = select(&input(Objective::Fastest), &AllPriced).unwrap();
         assert_eq!(
             s.rows[s.chosen.unwrap()].construction.name(),
             "modified-toeplitz"
