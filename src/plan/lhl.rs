@@ -198,10 +198,12 @@ mod tests {
     // spec/hashing-and-composition.md 2.6, Table 3 (edge cases). Boundary
     // rows (within 1e-6 of an integer) accept m or m - 1, as 2.5 allows.
     #[test]
+    #[allow(clippy::excessive_precision)] // the spec's k values, as printed
     fn table_3_edge_cases() {
         let two40 = 2f64.powi(-40);
+        type Row = (u64, f64, f64, Option<u64>, Option<u64>, bool);
         #[rustfmt::skip]
-        let rows: &[(u64, f64, f64, Option<u64>, Option<u64>, bool)] = &[
+        let rows: &[Row] = &[
             (1024, 100.0, 1e-12, Some(20), Some(22), false),
             (1024, 80.0, 1e-12, None, Some(2), false),
             (1024, 79.72627427729669, 1e-12, None, Some(1), true),

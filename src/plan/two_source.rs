@@ -29,11 +29,11 @@ pub fn valid_n(n: u64) -> bool {
     let mut rest = n - 1;
     let mut q = 2u64;
     while q * q <= rest {
-        if rest % q == 0 {
+        if rest.is_multiple_of(q) {
             if pow_mod(2, (n - 1) / q, n) == 1 {
                 return false;
             }
-            while rest % q == 0 {
+            while rest.is_multiple_of(q) {
                 rest /= q;
             }
         }
@@ -246,8 +246,16 @@ mod tests {
     fn table_6() {
         let big = 1048573u64;
         let nf = big as f64;
+        type Row = (
+            u64,
+            f64,
+            f64,
+            f64,
+            Option<(u64, &'static str)>,
+            Option<(u64, &'static str)>,
+        );
         #[rustfmt::skip]
-        let rows: &[(u64, f64, f64, f64, Option<(u64, &str)>, Option<(u64, &str)>)] = &[
+        let rows: &[Row] = &[
             (big, 0.8 * nf, 0.8 * nf, 1e-6, Some((629104, "7.228e-7")), Some((125797, "8.404e-7"))),
             (big, 0.8 * nf, 0.8 * nf, 1e-12, Some((629065, "9.748e-13")), Some((125765, "8.015e-13"))),
             (big, 0.95 * nf, 0.6 * nf, 1e-12, Some((576636, "8.635e-13")), Some((115279, "7.130e-13"))),
