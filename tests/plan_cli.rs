@@ -58,6 +58,10 @@ fn table_marks_the_choice_and_prints_cautions_once() {
         "{stdout}"
     );
     assert!(stdout.contains("Pr[accept] times the distance"), "{stdout}");
+    assert!(
+        stdout.contains("Assumed: the seed is independent"),
+        "{stdout}"
+    );
     assert_eq!(
         stderr
             .matches("only as good as the min-entropy claim")
@@ -135,6 +139,7 @@ fn json_has_every_construction() {
         .unwrap()
         .contains("does NOT bound the distance given acceptance"));
     assert_eq!(v["cautions"].as_array().unwrap().len(), 4);
+    assert_eq!(v["assumed_conditions"].as_array().unwrap().len(), 2);
     assert!(v["reason"].as_str().unwrap().starts_with("largest output"));
 }
 

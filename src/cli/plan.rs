@@ -163,8 +163,15 @@ fn print_table(input: &SelectorInput, sel: &select::Selection) -> anyhow::Result
     let mut out = std::io::stdout().lock();
     writeln!(
         out,
-        "n = {} bits per block, min-entropy {} bits, {} block(s), target total error {:e}",
-        input.n, input.k, input.budget.blocks, input.budget.eps_total
+        "n = {} bits per block, min-entropy {} bits (smoothing {:e}), {} block(s) with one \
+         seed, seed deficiency {} bits, certification error {:e}, target total error {:e}",
+        input.n,
+        input.k,
+        input.budget.eps_s,
+        input.budget.blocks,
+        input.budget.seed_deficiency,
+        input.budget.eps_cert,
+        input.budget.eps_total
     )?;
     writeln!(out)?;
     writeln!(
@@ -186,7 +193,7 @@ fn print_table(input: &SelectorInput, sel: &select::Selection) -> anyhow::Result
                 out,
                 "{mark} {name:<21} {:>12} {:>6.1}% {:>16} {:>11.3} {:>11} {:>14}",
                 p.m,
-                100.0 * p.kept,
+                (1000.0 * p.kept).floor() / 10.0,
                 p.d,
                 p.seed_per_output,
                 up4(p.eps_total),
@@ -211,6 +218,9 @@ fn print_table(input: &SelectorInput, sel: &select::Selection) -> anyhow::Result
          conservative."
     )?;
     writeln!(out, "Meaning: {}.", compose::meaning(false))?;
+    for c in select::assumed_conditions(input) {
+        writeln!(out, "Assumed: {c}.")?;
+    }
     writeln!(
         out,
         "If the certification can abort: {}.",
@@ -249,6 +259,7 @@ struct JsonReport<'a> {
     leftover_hash_form: &'static str,
     meaning: &'static str,
     meaning_if_certification_can_abort: &'static str,
+    assumed_conditions: Vec<&'static str>,
     speed_calibration: &'a Calibration,
     cautions: Vec<&'static str>,
 }
@@ -286,6 +297,7 @@ fn report<'a>(
         leftover_hash_form: "conservative",
         meaning: compose::meaning(false),
         meaning_if_certification_can_abort: compose::meaning(true),
+        assumed_conditions: select::assumed_conditions(input),
         speed_calibration: speeds,
         cautions: if cautions {
             CAUTIONS.to_vec()

@@ -410,6 +410,31 @@ pub fn select(input: &SelectorInput, model: &dyn ThroughputModel) -> Result<Sele
     })
 }
 
+/// The conditions a plan for `input` rests on, which the user asserts by
+/// running it (`spec/hashing-and-composition.md` 9 item 16: the report lists
+/// every asserted condition; the conditions are those of 2.2, 4.1 and 4.4).
+pub fn assumed_conditions(input: &SelectorInput) -> Vec<&'static str> {
+    let mut c = vec![
+        "the smooth min-entropy figure holds for the raw data given everything the adversary \
+         holds, quantum side information included",
+        "the seed is independent of the raw data and of the adversary, and no raw block it is \
+         used on is generated after the seed (or anything computed from it) is disclosed",
+    ];
+    if input.budget.blocks > 1 {
+        c.push(
+            "the min-entropy bound holds for each block given all earlier blocks, in an order \
+             fixed before the data were seen",
+        );
+    }
+    if input.budget.seed_deficiency > 0.0 {
+        c.push(
+            "the seed's own min-entropy, with no side information, is at least its length minus \
+             the seed deficiency",
+        );
+    }
+    c
+}
+
 /// A bit count in plain words: `838781 bits` below 10^4, else `1.9 Mbit`
 /// style with one decimal (rounded to nearest; for display only).
 pub fn human_bits(b: u64) -> String {
@@ -549,6 +574,17 @@ mod tests {
         let mut i = input(Objective::MostOutput);
         i.k = 2e6;
         assert_eq!(select(&i, &NoSpeeds).unwrap_err().field(), "k");
+    }
+
+    #[test]
+    fn conditions_follow_the_inputs() {
+        let mut i = input(Objective::MostOutput);
+        assert_eq!(assumed_conditions(&i).len(), 2);
+        i.budget.blocks = 3;
+        i.budget.seed_deficiency = 2.0;
+        let c = assumed_conditions(&i);
+        assert!(c.iter().any(|x| x.contains("given all earlier blocks")));
+        assert!(c.iter().any(|x| x.contains("seed deficiency")));
     }
 
     #[test]
