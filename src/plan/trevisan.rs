@@ -634,6 +634,75 @@ mod tests {
             .collect()
     }
 
+    /// The sets of a BLOCK design, built explicitly from its groups (4.2):
+    /// set done_g + u is { off_g + a w_g + p_u(a) }.
+    fn block_sets(shape: &DesignShape) -> Vec<Vec<u64>> {
+        let (t, q) = (shape.t, shape.q);
+        let mut sets = Vec::new();
+        for g in &shape.groups {
+            for u in 0..g.size {
+                let digits: Vec<u64> = (0..=g.degree).map(|h| (u / q.pow(h)) % q).collect();
+                sets.push(
+                    (0..t)
+                        .map(|a| {
+                            let p = digits.iter().rev().fold(0, |acc, &c| (acc * a + c) % q);
+                            g.offset + a * g.width + p
+                        })
+                        .collect(),
+                );
+            }
+        }
+        sets
+    }
+
+    fn overlaps(sets: &[Vec<u64>]) -> Vec<u128> {
+        (0..sets.len())
+            .map(|i| {
+                (0..i)
+                    .map(|j| 1u128 << sets[i].iter().filter(|x| sets[j].contains(x)).count())
+                    .sum()
+            })
+            .collect()
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(64))]
+
+        /// D4 (4.1): the closed form of W(i) equals the brute-force count on
+        /// the sets built explicitly, and max W(i) <= R_D (m - 1); R_D from
+        /// the float sum equals A_D / q^D.
+        #[test]
+        fn poly_closed_form_matches_brute_force(t in 2u64..7, extra in 0u64..8, m in 2u64..300) {
+            let q = next_prime(t + extra);
+            let Ok(s) = poly_design(m, t, q) else { return Ok(()) };
+            let w = brute_force_w(m, t, q, s.degree);
+            proptest::prop_assert_eq!(&w, &closed_form_w(m, t, q, s.degree));
+            let max = *w.iter().max().unwrap() as f64;
+            proptest::prop_assert!(max <= s.r * (m - 1) as f64 + 1e-9);
+            let exact = a_h(t, q, s.degree).unwrap() as f64 / (q as f64).powi(s.degree as i32);
+            proptest::prop_assert!((s.r - exact).abs() < 1e-12 * exact);
+        }
+
+        /// D5 (4.2): every set of a BLOCK design has W(i) <= m - 1 (r = 1),
+        /// counted by brute force on the sets built from the groups; the
+        /// sets have size t, lie inside the seed, and are distinct.
+        #[test]
+        fn block_design_has_r_1(t in 2u64..6, extra in 0u64..6, m in 2u64..400) {
+            let q = next_prime(t + extra);
+            let shape = block_design(m, t, q).unwrap();
+            let sets = block_sets(&shape);
+            proptest::prop_assert_eq!(sets.len() as u64, m);
+            for (i, set) in sets.iter().enumerate() {
+                proptest::prop_assert_eq!(set.len() as u64, t);
+                proptest::prop_assert!(set.iter().all(|&x| x < shape.d));
+                proptest::prop_assert!(set.windows(2).all(|p| p[0] < p[1]), "increasing order");
+                proptest::prop_assert!(!sets[..i].contains(set));
+            }
+            let w = overlaps(&sets);
+            proptest::prop_assert!(w.iter().all(|&x| x <= (m - 1) as u128), "{:?}", w);
+        }
+    }
+
     // spec/trevisan.md 8, D6 example: n = 2^20, k_s = 0.9n, eps_total =
     // 1e-12, BLOCK, s_def = 0, 16, 64; and the POLY c = 1 side effect.
     #[test]
