@@ -89,8 +89,21 @@ fn option_for(field: &str) -> &'static str {
     }
 }
 
-fn plan_error(e: sluice::plan::Error) -> anyhow::Error {
-    anyhow::anyhow!("{}: {e}", option_for(e.field()))
+fn plan_error(e: sluice::plan::Error, rate_given: bool) -> anyhow::Error {
+    let option = match e.field() {
+        "k" if rate_given => "--min-entropy-rate",
+        f => option_for(f),
+    };
+    anyhow::anyhow!("{option}: {e}")
+}
+
+/// Seed bits per output bit, readable from 1e-6 to 1e12.
+fn ratio_cell(x: f64) -> String {
+    if x >= 1e-3 && x < 1e7 {
+        format!("{x:.3}")
+    } else {
+        format!("{x:.2e}")
+    }
 }
 
 pub fn run(args: PlanArgs) -> anyhow::Result<ExitCode> {
@@ -126,9 +139,10 @@ pub fn run(args: PlanArgs) -> anyhow::Result<ExitCode> {
             ObjectiveArg::Fastest => Objective::Fastest,
         },
     };
-    input.validate().map_err(plan_error)?;
+    let rate_given = args.min_entropy.is_none();
+    input.validate().map_err(|e| plan_error(e, rate_given))?;
     let speeds = speed_model();
-    let sel = select::select(&input, &speeds).map_err(plan_error)?;
+    let sel = select::select(&input, &speeds).map_err(|e| plan_error(e, rate_given))?;
     if args.json {
         common::print_json(&report(&input, &sel, &speeds, !args.quiet))?;
     } else {
@@ -191,11 +205,11 @@ fn print_table(input: &SelectorInput, sel: &select::Selection) -> anyhow::Result
         match &row.outcome {
             Ok(p) => writeln!(
                 out,
-                "{mark} {name:<21} {:>12} {:>6.1}% {:>16} {:>11.3} {:>11} {:>14}",
+                "{mark} {name:<21} {:>12} {:>6.1}% {:>16} {:>11} {:>11} {:>14}",
                 p.m,
                 (1000.0 * p.kept).floor() / 10.0,
                 p.d,
-                p.seed_per_output,
+                ratio_cell(p.seed_per_output),
                 up4(p.eps_total),
                 time_cell(p.seconds_per_block)
             )?,

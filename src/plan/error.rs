@@ -135,12 +135,14 @@ impl fmt::Display for Error {
             ErrorKind::BudgetExhausted { target, fixed } => write!(
                 f,
                 "{field} = {target:e}: too small; the certificate, seed and smoothing terms \
-                 alone cost {fixed:e}, which leaves no error for the extractor"
+                 alone cost {}, which leaves no error for the extractor",
+                super::round::up4(*fixed)
             ),
             ErrorKind::NoOutput { k, eps_ext } => write!(
                 f,
                 "{field} = {k}: too little min-entropy for even one output bit \
-                 with an extractor error of {eps_ext:e}"
+                 with an extractor error of at most {}",
+                super::round::down4(*eps_ext)
             ),
             ErrorKind::Unverified { what } => write!(
                 f,

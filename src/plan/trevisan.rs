@@ -380,6 +380,16 @@ pub fn search(inp: &TrevisanInputs) -> Result<TrevisanPlan, Error> {
     if inp.c == 0 {
         return Err(Error::new("c", ErrorKind::Zero));
     }
+    if inp.one_bit == OneBit::Ip && inp.n.checked_mul(inp.k_s.floor() as u64).is_none() {
+        // d = n m must fit in 64 bits for every candidate m <= k_s; a search
+        // that skipped the lengths that overflow would return a small m.
+        return Err(Error::new(
+            "n",
+            ErrorKind::TooLarge {
+                what: "the inner-product seed length n m",
+            },
+        ));
+    }
     let budget = &inp.budget;
     let eps1 = budget.eps_ext()?; // already includes 2^-s_def
     let k_a = inp.k_s + (-budget.eps_s).ln_1p() / std::f64::consts::LN_2;
@@ -755,6 +765,14 @@ mod tests {
             ErrorKind::BudgetExhausted { .. }
         ));
         i.budget.eps_s = 0.0;
+        let mut huge = i.clone();
+        huge.one_bit = OneBit::Ip;
+        huge.n = 1 << 40;
+        huge.k_s = 2f64.powi(39);
+        assert!(matches!(
+            search(&huge).unwrap_err().kind(),
+            ErrorKind::TooLarge { .. }
+        ));
         i.c = 0;
         assert_eq!(search(&i).unwrap_err().field(), "c");
         assert!(poly_design(28, 3, 3).is_err(), "D > t - 1");
