@@ -99,7 +99,7 @@ fn plan_error(e: sluice::plan::Error, rate_given: bool) -> anyhow::Error {
 
 /// Seed bits per output bit, readable from 1e-6 to 1e12.
 fn ratio_cell(x: f64) -> String {
-    if x >= 1e-3 && x < 1e7 {
+    if (1e-3..1e7).contains(&x) {
         format!("{x:.3}")
     } else {
         format!("{x:.2e}")
