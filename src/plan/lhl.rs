@@ -236,6 +236,27 @@ mod tests {
         assert_eq!(eps_ext(6.0, 2), 0.25);
     }
 
+    // spec/trevisan.md 6, two-universal comparison table: eps_s =
+    // eps_total/4, so eps_ext = eps_total/2; Toeplitz seed n + m - 1.
+    #[test]
+    fn trevisan_page_two_universal_comparison() {
+        let rows: &[(u32, f64, f64, u64, u64)] = &[
+            (16, 0.9, 1e-12, 58900, 124435),
+            (20, 0.5, 1e-6, 524246, 1572821),
+            (20, 0.9, 1e-12, 943636, 1992211),
+            (24, 0.5, 1e-6, 8388566, 25165781),
+            (24, 0.9, 1e-12, 15099412, 31876627),
+        ];
+        for &(log_n, rate, total, m, d) in rows {
+            let n = 1u64 << log_n;
+            let k = rate * n as f64;
+            let b = Budget::single(total, total / 4.0);
+            let got = max_m_for_total(Family::Toeplitz, n, k, &b).unwrap();
+            assert_eq!(got, m, "n = 2^{log_n}, k = {rate} n, eps = {total}");
+            assert_eq!(seed_len(Family::Toeplitz, n, got).unwrap(), d);
+        }
+    }
+
     // spec/hashing-and-composition.md 2.5: refusals.
     #[test]
     fn refusals_name_the_bad_number() {

@@ -587,6 +587,52 @@ mod tests {
         assert!(c.iter().any(|x| x.contains("seed deficiency")));
     }
 
+    // spec/trevisan.md 7, cost table (params.py extra; k_s = 0.9n,
+    // eps_total = 1e-12 with the worked table's eps_s = eps_total/4): l, nb
+    // and the total carry-less products m (nb - 1) W^2; and the IP figure
+    // n m / 64 = 4.0e12 at n = 2^24.
+    #[test]
+    fn trevisan_cost_table() {
+        let rows: &[(u32, Design, u64, u64, f64)] = &[
+            (16, Design::Poly, 237, 277, 1.3e8),
+            (16, Design::Block, 241, 272, 2.5e8),
+            (20, Design::Poly, 255, 4113, 2.5e10),
+            (20, Design::Block, 261, 4018, 9.5e10),
+            (24, Design::Poly, 275, 61009, 9.3e12),
+            (24, Design::Block, 281, 59706, 2.25e13),
+        ];
+        let plan = |log_n: u32, one_bit, design| {
+            let n = 1u64 << log_n;
+            let c = Construction::Trevisan {
+                one_bit,
+                design,
+                c: 1,
+            };
+            let i = SelectorInput {
+                n,
+                k: 0.9 * n as f64,
+                budget: Budget::single(1e-12, 2.5e-13),
+                ..input(Objective::MostOutput)
+            };
+            let p = plan_one(&c, &i, &NoSpeeds).unwrap();
+            let work = work_per_block(&c, n, p.m, p.trevisan.as_ref());
+            (p, work)
+        };
+        for &(log_n, design, l, nb, products) in rows {
+            let (p, work) = plan(log_n, OneBit::Ph, design);
+            assert_eq!(p.trevisan.as_ref().unwrap().function.l, Some(l));
+            assert_eq!((1u64 << log_n).div_ceil(l), nb);
+            let digits = if products == 2.25e13 { 3 } else { 2 };
+            assert_eq!(
+                format!("{:.*e}", digits - 1, work),
+                format!("{:.*e}", digits - 1, products),
+                "n = 2^{log_n}, {design:?}"
+            );
+        }
+        let (_, work) = plan(24, OneBit::Ip, Design::Poly);
+        assert_eq!(format!("{work:.1e}"), "4.0e12");
+    }
+
     #[test]
     fn human_units() {
         assert_eq!(human_bits(1887356), "1.9 Mbit");
