@@ -12,7 +12,7 @@ fn input(log_n: u32) -> SelectorInput {
         n,
         k: 0.9 * n as f64,
         scope: EntropyScope::PerBlock,
-        can_abort: false,
+        can_abort: None,
         budget: Budget::single(1e-12, 2.5e-13),
         objective: Objective::MostOutput,
     }

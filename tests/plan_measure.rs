@@ -94,7 +94,7 @@ fn calibration_times_the_extractor_through_the_trait() {
         n: 1 << 16,
         k: 0.8 * 65536.0,
         scope: EntropyScope::PerBlock,
-        can_abort: false,
+        can_abort: None,
         budget: Budget::single(1e-9, 1e-10),
         objective: Objective::Fastest,
     };

@@ -170,7 +170,7 @@ proptest! {
             n,
             k: rate * n as f64,
             scope: EntropyScope::PerBlock,
-            can_abort: false,
+            can_abort: None,
             budget: Budget { blocks: l, ..Budget::single(total, total / 8.0 / l as f64) },
             objective: Objective::MostOutput,
         };

@@ -124,7 +124,7 @@ pub fn run(args: PlanArgs) -> anyhow::Result<ExitCode> {
         n: args.input_bits,
         k,
         scope: EntropyScope::PerBlock,
-        can_abort: false,
+        can_abort: None,
         budget: Budget {
             eps_total: args.target_error,
             eps_cert: args.cert_error,
@@ -231,15 +231,20 @@ fn print_table(input: &SelectorInput, sel: &select::Selection) -> anyhow::Result
         "Total error = eps_cert + L (2 eps_s + 2^s eps_ext), rounded up; leftover-hash form: \
          conservative."
     )?;
-    writeln!(out, "Meaning: {}.", compose::meaning(false))?;
     for c in select::assumed_conditions(input) {
         writeln!(out, "Assumed: {c}.")?;
     }
-    writeln!(
-        out,
-        "If the certification can abort: {}.",
-        compose::meaning(true)
-    )?;
+    match input.can_abort {
+        Some(abort) => writeln!(out, "Meaning: {}.", compose::meaning(abort))?,
+        None => {
+            writeln!(out, "Meaning: {}.", compose::meaning(false))?;
+            writeln!(
+                out,
+                "If the certification can abort: {}.",
+                compose::meaning(true)
+            )?;
+        }
+    }
     Ok(())
 }
 

@@ -55,8 +55,9 @@ pub struct SelectorInput {
     /// What `k` covers.
     pub scope: EntropyScope,
     /// Whether the certification can abort (changes the meaning of
-    /// eps_total: `spec/hashing-and-composition.md` 5).
-    pub can_abort: bool,
+    /// eps_total: `spec/hashing-and-composition.md` 5); `None` when not
+    /// known (then both meanings are reported).
+    pub can_abort: Option<bool>,
     /// Error target and fixed terms (eps_total, eps_cert, eps_seed, L, eps_s,
     /// s).
     pub budget: Budget,
@@ -477,7 +478,7 @@ mod tests {
             n: 1 << 20,
             k: 0.8 * (1u64 << 20) as f64,
             scope: EntropyScope::PerBlock,
-            can_abort: false,
+            can_abort: None,
             budget: Budget::single(1e-9, 1e-10),
             objective,
         }
