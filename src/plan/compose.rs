@@ -10,7 +10,7 @@
 //! argument of 2.4, the hybrid argument of 4.1 (one seed for many blocks),
 //! the recycling argument of 4.2, the weak-seed bound of 4.4, the
 //! near-uniform-seed bound of 4.7 and the triangle inequality; that the
-//! trace-distance criterion composes is [RK05] (abstract read). It is the
+//! trace-distance criterion composes is \[RK05\] (abstract read). It is the
 //! same for every construction (Trevisan included: `spec/trevisan.md` 6).
 
 use super::{check_half_open_unit, check_open_unit, Error, ErrorKind};

@@ -2,9 +2,9 @@
 //! information (`spec/hashing-and-composition.md` sections 2 and 3).
 //!
 //! The tool uses the conservative form of the lemma everywhere (2.3):
-//! `eps_ext(k, m) = 2^(-(k - m)/2)`, from Renner's thesis [R05], Corollary
+//! `eps_ext(k, m) = 2^(-(k - m)/2)`, from Renner's thesis \[R05\], Corollary
 //! 5.6.1 (recalled, not re-read: spec 2.2 (b)); the form of Tomamichel,
-//! Schaffner, Smith and Renner [TSSR11] with an extra factor 1/2 is kept here
+//! Schaffner, Smith and Renner \[TSSR11\] with an extra factor 1/2 is kept here
 //! only for comparison ([`eps_ext_tssr`], [`max_m_tssr`]). One extraction is
 //! charged `2 eps_s + eps_ext` (2.4, derived on the spec page).
 
@@ -16,10 +16,10 @@ use super::{check_entropy, check_open_unit, log_inv, Error, ErrorKind};
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, serde::Serialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Family {
-    /// Toeplitz matrix, seed `n + m - 1` bits, `1 <= m <= n` (3.1; [K94],
-    /// [MNT93]).
+    /// Toeplitz matrix, seed `n + m - 1` bits, `1 <= m <= n` (3.1; \[K94\],
+    /// \[MNT93\]).
     Toeplitz,
-    /// `[I_m | T']`, seed `n - 1` bits, `1 <= m <= n - 1` (3.2; [HT16]).
+    /// `[I_m | T']`, seed `n - 1` bits, `1 <= m <= n - 1` (3.2; \[HT16\]).
     ModifiedToeplitz,
 }
 
@@ -81,7 +81,7 @@ fn check_lengths(family: Family, n: u64, m: u64) -> Result<(), Error> {
 
 /// Extractor error of two-universal hashing from `k` bits of (smooth)
 /// min-entropy to `m` bits: `2^(-(k - m)/2)`, the conservative form
-/// (`spec/hashing-and-composition.md` 2.3 and 9 item 5; [R05] Cor. 5.6.1,
+/// (`spec/hashing-and-composition.md` 2.3 and 9 item 5; \[R05\] Cor. 5.6.1,
 /// from memory). Round it up for printing with [`super::round::up`].
 ///
 /// Values above 1 are possible when `m > k` (the bound is then void).
@@ -89,13 +89,13 @@ pub fn eps_ext(k: f64, m: u64) -> f64 {
     (-(k - m as f64) / 2.0).exp2()
 }
 
-/// The [TSSR11] form `(1/2) 2^(-(k - m)/2)` (spec 2.2 (a), from memory),
+/// The \[TSSR11\] form `(1/2) 2^(-(k - m)/2)` (spec 2.2 (a), from memory),
 /// for comparison only; the tool never certifies with it.
 pub fn eps_ext_tssr(k: f64, m: u64) -> f64 {
     0.5 * eps_ext(k, m)
 }
 
-/// Largest m by the [TSSR11] form, `floor(k - 2 log(1/eps) + 2)` (spec
+/// Largest m by the \[TSSR11\] form, `floor(k - 2 log(1/eps) + 2)` (spec
 /// 2.2), for comparison only; `None` when below 1. Not clamped to a family.
 pub fn max_m_tssr(k: f64, eps: f64) -> Option<u64> {
     let x = (k - 2.0 * log_inv(eps) + 2.0).floor();
@@ -109,7 +109,7 @@ pub fn max_m_tssr(k: f64, eps: f64) -> Option<u64> {
 /// Largest output length with extractor error at most `eps_ext`:
 /// `floor(k - 2 log(1/eps_ext))`, clamped to the family's range, then
 /// re-checked and decremented while `eps_ext(k, m)` exceeds the target
-/// (`spec/hashing-and-composition.md` 2.3, 2.5, 9 item 6; [R05] form).
+/// (`spec/hashing-and-composition.md` 2.3, 2.5, 9 item 6; \[R05\] form).
 ///
 /// Refuses `k > n`, `n = 0`, `eps_ext` outside (0, 1), and returns
 /// [`ErrorKind::NoOutput`] when not even one bit can be extracted.

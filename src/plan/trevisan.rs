@@ -1,8 +1,8 @@
 //! Parameters of Trevisan-type extractors (`spec/trevisan.md` sections 3, 4,
 //! 6 and rule D6 of section 8).
 //!
-//! The construction (Trevisan [Tre01] with weak designs [RRV02], analysed
-//! against quantum side information in [DPVR12]; theorem constants recalled
+//! The construction (Trevisan \[Tre01\] with weak designs \[RRV02\], analysed
+//! against quantum side information in \[DPVR12\]; theorem constants recalled
 //! from memory, listed in `spec/trevisan.md` 10) is fixed by the integers of
 //! [`TrevisanFunction`]: `(n, m, one-bit, l, design, q)`. This module finds
 //! them by the deterministic search of section 6 and derives the seed length
@@ -367,8 +367,8 @@ fn cond(inp: &TrevisanInputs, eps1: f64, k_a: f64, m: u64) -> Option<Candidate> 
 /// log2(1/(1 - eps_s))` (S1), then the binary search `lo = 0`,
 /// `hi = floor(k_s) + 1` on `cond(m)`, and the final check
 /// `eps_cert + eps_seed + L (2 eps_s + 2^s_def eps_actual) <= eps_total`.
-/// Security rests on T1 (PH) and T2 (IP) of section 5 ([DPVR12], with
-/// [KT08] for T1; constants from memory).
+/// Security rests on T1 (PH) and T2 (IP) of section 5 (\[DPVR12\], with
+/// \[KT08\] for T1; constants from memory).
 ///
 /// `cond` is not monotone in m (l, q and D move in steps), so the result need
 /// not be the largest valid m; it always satisfies `cond`.

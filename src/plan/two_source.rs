@@ -1,13 +1,13 @@
 //! The seedless cyclic-shift two-source extractor's bounds
-//! (`spec/hashing-and-composition.md` section 6; construction of [DEOR04],
+//! (`spec/hashing-and-composition.md` section 6; construction of \[DEOR04\],
 //! abstract read).
 //!
 //! Two modes:
 //! - **classical** (6.3, derived on the spec page; consistent with the
-//!   [DEOR04] abstract): independent sources, side information classical
+//!   \[DEOR04\] abstract): independent sources, side information classical
 //!   only. Always labelled "classical side information only".
 //! - **Markov, unverified** (6.4): the formulas come from a recollection of
-//!   [APS16] that the spec page could not check; they are refused unless the
+//!   \[APS16\] that the spec page could not check; they are refused unless the
 //!   caller passes an explicit flag accepting unverified constants.
 
 use super::{check_half_open_unit, check_open_unit, log_inv, Error, ErrorKind};
@@ -21,7 +21,7 @@ pub const MARKOV_LABEL: &str =
 
 /// Whether n is a valid length: a prime with 2 as a primitive root modulo n,
 /// checked as `2^((n-1)/q) mod n != 1` for every prime q dividing n - 1
-/// (`spec/hashing-and-composition.md` 6.1 and 9 item 11; [DEOR04], memory).
+/// (`spec/hashing-and-composition.md` 6.1 and 9 item 11; \[DEOR04\], memory).
 pub fn valid_n(n: u64) -> bool {
     if n < 3 || !super::trevisan::is_prime(n) {
         return false;
@@ -64,7 +64,7 @@ pub fn largest_n(limit: u64) -> Option<u64> {
 }
 
 /// Min-entropy left after dropping bits: `max(0, k - dropped)`
-/// (`spec/hashing-and-composition.md` 1.5 and 9 item 15; chain rule, [R05]
+/// (`spec/hashing-and-composition.md` 1.5 and 9 item 15; chain rule, \[R05\]
 /// from memory).
 pub fn truncate_entropy(k: f64, dropped_bits: u64) -> f64 {
     (k - dropped_bits as f64).max(0.0)
@@ -146,7 +146,7 @@ fn unverified(accept: bool) -> Result<(), Error> {
 /// Markov-model bound, **unverified**:
 /// `eps_q = sqrt(3 * 2^(m-2) * 2^(-(K1 + K2 - n - m + 1)/4))`
 /// (`spec/hashing-and-composition.md` 6.4, derived there from an unverified
-/// recollection of [APS16]; 9 item 14). Refused unless
+/// recollection of \[APS16\]; 9 item 14). Refused unless
 /// `accept_unverified` is true.
 pub fn eps_markov_unverified(
     n: u64,
