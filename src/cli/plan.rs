@@ -23,6 +23,9 @@ pub struct PlanArgs {
     #[arg(long, value_name = "N")]
     input_bits: u64,
     /// Certified smooth min-entropy of each block, in bits.
+    ///
+    /// With several blocks, the bound must hold for each block given all
+    /// earlier blocks (in an order fixed in advance) and the adversary.
     #[arg(long, value_name = "K", required_unless_present = "min_entropy_rate")]
     min_entropy: Option<f64>,
     /// Certified smooth min-entropy per raw bit (0 to 1).
