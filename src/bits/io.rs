@@ -5,10 +5,7 @@
 //! appends bit strings of any length to a [`Write`], packing across byte
 //! boundaries. Both speak the three formats of [`Format`].
 
-use super::{
-    copy_bits, hex_value, pack_bytes_into_words, words_for, BitOrder, Bits, Error, ErrorKind,
-    Format,
-};
+use super::{copy_bits, hex_value, pack_bytes_into_words, words_for, BitOrder, Bits, Error, ErrorKind, Format};
 use std::fs::File;
 use std::io::{Read, Write};
 use std::path::{Path, PathBuf};
@@ -155,9 +152,7 @@ impl<R: Read> BlockReader<R> {
                 Ok(k) => break k,
                 Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
                 Err(e) => {
-                    return Err(Error::from(e)
-                        .at_offset(self.bytes_read)
-                        .in_file(&self.path))
+                    return Err(Error::from(e).at_offset(self.bytes_read).in_file(&self.path))
                 }
             }
         };
@@ -390,19 +385,11 @@ mod tests {
     #[test]
     fn stream_errors_carry_offsets() {
         let data = b"0101\n01z1";
-        let mut r = BlockReader::new(
-            &data[..],
-            Path::new("raw.txt"),
-            Format::Ascii,
-            BitOrder::Msb,
-        );
+        let mut r = BlockReader::new(&data[..], Path::new("raw.txt"), Format::Ascii, BitOrder::Msb);
         let mut b = Bits::zeros(8);
         let e = r.next_block(&mut b).unwrap_err();
         assert_eq!(e.offset(), Some(7));
-        assert!(
-            e.to_string().starts_with("raw.txt: byte 7: found 'z'"),
-            "{e}"
-        );
+        assert!(e.to_string().starts_with("raw.txt: byte 7: found 'z'"), "{e}");
         let mut r = BlockReader::new(&b"abc"[..], Path::new("h"), Format::Hex, BitOrder::Msb);
         let mut b = Bits::zeros(16);
         let e = r.next_block(&mut b).unwrap_err();

@@ -145,11 +145,7 @@ impl Bits {
     /// If `i >= len`.
     #[inline]
     pub fn get(&self, i: usize) -> bool {
-        assert!(
-            i < self.len,
-            "bit index {i} out of range for {} bits",
-            self.len
-        );
+        assert!(i < self.len, "bit index {i} out of range for {} bits", self.len);
         (self.words[i / 64] >> (i % 64)) & 1 == 1
     }
 
@@ -159,11 +155,7 @@ impl Bits {
     /// If `i >= len`.
     #[inline]
     pub fn set(&mut self, i: usize, v: bool) {
-        assert!(
-            i < self.len,
-            "bit index {i} out of range for {} bits",
-            self.len
-        );
+        assert!(i < self.len, "bit index {i} out of range for {} bits", self.len);
         let w = &mut self.words[i / 64];
         let m = 1u64 << (i % 64);
         if v {

@@ -4,9 +4,9 @@
 //! store the result and every call is a plain `match`. Every backend gives the
 //! same bits as [`portable`], which the tests check on random operands.
 
+pub mod portable;
 #[cfg(target_arch = "x86_64")]
 pub mod pclmul;
-pub mod portable;
 #[cfg(target_arch = "x86_64")]
 pub mod vpclmul;
 
@@ -124,21 +124,13 @@ mod tests {
             for &a in &edges {
                 for &b in &edges {
                     let (lo, hi) = be.clmul64(a, b);
-                    assert_eq!(
-                        (hi as u128) << 64 | lo as u128,
-                        clmul_oracle(a, b),
-                        "{be:?}"
-                    );
+                    assert_eq!((hi as u128) << 64 | lo as u128, clmul_oracle(a, b), "{be:?}");
                 }
             }
             for _ in 0..10_000 {
                 let (a, b) = (next(), next());
                 let (lo, hi) = be.clmul64(a, b);
-                assert_eq!(
-                    (hi as u128) << 64 | lo as u128,
-                    clmul_oracle(a, b),
-                    "{be:?}"
-                );
+                assert_eq!((hi as u128) << 64 | lo as u128, clmul_oracle(a, b), "{be:?}");
             }
         }
     }
