@@ -28,4 +28,5 @@ pub mod bits;
 pub mod extract;
 pub mod gf2;
 pub mod pipeline;
+pub mod plan;
 pub mod vectors;

@@ -9,6 +9,7 @@ mod bench;
 mod common;
 mod demo;
 mod extract;
+mod plan;
 mod vectors;
 
 use clap::{Parser, Subcommand};
@@ -28,6 +29,8 @@ enum Command {
     Extract(extract::ExtractArgs),
     /// Recompute an output and check a claimed one against it
     Verify(extract::VerifyArgs),
+    /// Compare the extractors for your security inputs and pick one
+    Plan(plan::PlanArgs),
     /// Run the main job on a built-in simulated source, start to finish
     Demo(demo::DemoArgs),
     /// Check the published test vectors
@@ -53,6 +56,7 @@ pub fn main() -> ExitCode {
     let result: anyhow::Result<ExitCode> = match cli.command {
         Command::Extract(a) => extract::run_extract(a),
         Command::Verify(a) => extract::run_verify(a),
+        Command::Plan(a) => plan::run(a),
         Command::Vectors(a) => vectors::run(a),
         Command::Demo(a) => demo::run(a),
         Command::Bench(a) => bench::run(a),
