@@ -25,5 +25,6 @@
 #![warn(missing_docs)]
 
 pub mod bits;
+pub mod certify;
 pub mod extract;
 pub mod gf2;
