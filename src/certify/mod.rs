@@ -110,7 +110,7 @@ impl Setup {
         match self {
             Setup::Separated => "separated devices (no signalling enforced by distance and timing)",
             Setup::Shielded => "shielded devices (no signalling assumed from shielding, not enforced by timing: a trusted assumption)",
-            Setup::SingleDevice => "single device: NOT DEVICE-INDEPENDENT (the CHSH value measures the device; it does not certify randomness independently of it)",
+            Setup::SingleDevice => "single device - not device-independent: the CHSH value describes the device; it does not certify randomness independently of it",
         }
     }
 }

@@ -5,6 +5,7 @@
 //! counts as success; `--json` prints one JSON document on standard output
 //! for scripts; progress bars appear only on a terminal.
 
+mod certify;
 mod common;
 
 use clap::{Parser, Subcommand};
@@ -21,12 +22,16 @@ struct Cli {
 #[derive(Subcommand)]
 enum Command {
     // Each command is one variant; its options live in its own module.
+    /// Certify the record of a CHSH Bell test (or plan a run).
+    Certify(certify::CertifyArgs),
 }
 
 /// Runs the command line and maps the outcome to an exit status.
 pub fn main() -> ExitCode {
     let cli = Cli::parse();
-    let result: anyhow::Result<ExitCode> = match cli.command {};
+    let result: anyhow::Result<ExitCode> = match cli.command {
+        Command::Certify(a) => certify::run(a),
+    };
     match result {
         Ok(code) => code,
         Err(e) => common::report_error(&e),
