@@ -316,3 +316,36 @@ fn parameters_are_given_once() {
     let o = sluice(&["certify", "--plan", "--params", bad.to_str().unwrap()]);
     assert!(stderr(&o).contains("line 2: unknown key \"gama\""), "{}", stderr(&o));
 }
+
+#[test]
+fn counts_file_may_carry_the_parameters() {
+    // Summary form for users with counts only: spec 3.7 worked example in
+    // one file (counts and parameters); W public: 52 402 750 - 24 bits.
+    let dir = tempfile::tempdir().unwrap();
+    let f = write(
+        dir.path(),
+        "summary.txt",
+        b"# fictional bench QM-7, run 12\nrounds = 100000000\ntest-probability = 0.1\n\
+          expected-win = 0.84\ntolerance = 0.002\nsmoothing = 1e-6\nacceptance = 1e-6\n\
+          test-rounds = 10000000\nwins = 8400000\n",
+    );
+    let raw = write(dir.path(), "raw.bin", &[]);
+    let o = sluice(&["certify", "--counts", f.to_str().unwrap(), "--setup", "separated", "--json"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert_eq!(json(&o)["min_entropy_bits"], 52_402_726);
+    // A certificate needs the raw string: with counts, --raw-in names it,
+    // and its size must match 2 N_rounds bits.
+    let cert = dir.path().join("c.json");
+    let o = sluice(&[
+        "certify", "--counts", f.to_str().unwrap(), "--setup", "separated", "-o",
+        cert.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(stderr(&o).contains("--raw-in"), "{}", stderr(&o));
+    let o = sluice(&[
+        "certify", "--counts", f.to_str().unwrap(), "--setup", "separated", "--raw-in",
+        raw.to_str().unwrap(), "-o", cert.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(stderr(&o).contains("needs 25000000 bytes"), "{}", stderr(&o));
+}

@@ -455,7 +455,8 @@ pub(crate) mod tests {
 
     #[test]
     fn validation_names_the_field() {
-        let cases: Vec<(fn(&mut Certificate), &str)> = vec![
+        type Change = fn(&mut Certificate);
+        let cases: Vec<(Change, &str)> = vec![
             (|c| c.schema = "sluice-certificate/9".into(), "schema"),
             (|c| c.string.length_bits = 100_000_000, "string.length_bits"),
             (|c| c.string.digest = "XYZ".into(), "string.digest"),

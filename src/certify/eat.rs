@@ -457,7 +457,7 @@ mod tests {
                 1e-9,
                 0.807542931,
                 8921,
-                411031918960.277954,
+                411_031_918_960.277_95,
                 411031918919,
             ),
         ];
@@ -694,7 +694,7 @@ mod tests {
         use proptest::prelude::*;
 
         proptest! {
-            #![proptest_config(ProptestConfig::with_cases(60))]
+            #![proptest_config(ProptestConfig::with_cases(300))]
             // spec 3.6: the candidate rule agrees with an exhaustive scan
             // over every plateau end (300 random cases there; N_rounds 1e5
             // to 1e12, gamma 1e-3 to 1, eps 1e-12 to 1e-2).

@@ -222,6 +222,6 @@ mod tests {
             .any(|s| s.contains("i.i.d.")));
         assert!(Setup::SingleDevice
             .label()
-            .contains("NOT DEVICE-INDEPENDENT"));
+            .contains("not device-independent"));
     }
 }

@@ -141,11 +141,26 @@ struct Resolved {
     from_file: Option<(PathBuf, String)>,
 }
 
-/// Reads `key = value` lines ('#' comments, blank lines ignored).
-fn read_key_values(
-    path: &Path,
-    allowed: &[&str],
-) -> Result<(Vec<(String, String, usize)>, String)> {
+/// `(key, value, line number)` entries of a `key = value` file.
+type KeyValues = Vec<(String, String, usize)>;
+
+/// Keys of the parameters file.
+const PARAM_KEYS: [&str; 7] = [
+    "rounds",
+    "test-probability",
+    "expected-win",
+    "tolerance",
+    "smoothing",
+    "acceptance",
+    "estimation-error",
+];
+
+/// Keys of the counts file (besides the parameters it may carry).
+const COUNT_KEYS: [&str; 2] = ["test-rounds", "wins"];
+
+/// Reads `key = value` lines ('#' comments, blank lines ignored); returns
+/// them with the BLAKE3 hex digest of the file.
+fn read_key_values(path: &Path, allowed: &[&str]) -> Result<(KeyValues, String)> {
     let bytes = std::fs::read(path).with_context(|| format!("cannot read {}", path.display()))?;
     let digest = blake3::hash(&bytes).to_hex().to_string();
     let text = String::from_utf8(bytes).map_err(|e| {
@@ -206,7 +221,7 @@ fn parse_num<T: std::str::FromStr>(path: &Path, line: usize, key: &str, v: &str)
         return Ok(x);
     }
     if let Ok(f) = v2.parse::<f64>() {
-        if f.fract() == 0.0 && f >= 0.0 && f < 1.9e19 {
+        if f.fract() == 0.0 && (0.0..1.8e19).contains(&f) {
             if let Ok(x) = format!("{}", f as u64).parse::<T>() {
                 return Ok(x);
             }
@@ -230,18 +245,29 @@ impl CertifyArgs {
             eps_est: self.estimation_error,
             from_file: None,
         };
-        if let Some(path) = &self.params {
-            let keys = [
-                "rounds",
-                "test-probability",
-                "expected-win",
-                "tolerance",
-                "smoothing",
-                "acceptance",
-                "estimation-error",
-            ];
-            let (kv, digest) = read_key_values(path, &keys)?;
+        // The parameters file, or else the counts file, which may carry
+        // the parameters too (one summary file for users with counts only).
+        let file = self.params.as_ref().or(self.counts.as_ref());
+        if let Some(path) = file {
+            let mut allowed: Vec<&str> = PARAM_KEYS.to_vec();
+            if self.params.is_none() {
+                allowed.extend_from_slice(&COUNT_KEYS);
+            }
+            let (kv, digest) = read_key_values(path, &allowed)?;
+            let mut any = false;
             for (k, v, line) in kv {
+                if COUNT_KEYS.contains(&k.as_str()) {
+                    continue;
+                }
+                if self.params.is_none() && k == "rounds" {
+                    // In a counts file, rounds is the count; it is checked
+                    // against --rounds (or taken as N_rounds) later.
+                    if r.rounds.is_none() {
+                        r.rounds = Some(parse_num(path, line, &k, &v)?);
+                    }
+                    continue;
+                }
+                any = true;
                 let clash = |given: bool| -> Result<()> {
                     if given {
                         bail!(
@@ -282,7 +308,9 @@ impl CertifyArgs {
                     }
                 }
             }
-            r.from_file = Some((path.clone(), digest));
+            if self.params.is_some() || any {
+                r.from_file = Some((path.clone(), digest));
+            }
         }
         Ok(r)
     }
@@ -449,9 +477,36 @@ fn run_plan(args: &CertifyArgs) -> Result<ExitCode> {
 fn print_cautions(o: &mut impl Write, mode: Mode) -> Result<()> {
     writeln!(o, "cautions:")?;
     for (i, c) in cautions(mode).iter().enumerate() {
-        writeln!(o, "  {}. {}", i + 1, c)?;
+        let mut first = true;
+        for line in wrap(c, 72) {
+            if first {
+                writeln!(o, "  {}. {line}", i + 1)?;
+                first = false;
+            } else {
+                writeln!(o, "     {line}")?;
+            }
+        }
     }
     Ok(())
+}
+
+/// Splits `text` into lines of at most `width` characters at spaces.
+fn wrap(text: &str, width: usize) -> Vec<String> {
+    let mut lines = Vec::new();
+    let mut cur = String::new();
+    for word in text.split_whitespace() {
+        if !cur.is_empty() && cur.len() + 1 + word.len() > width {
+            lines.push(std::mem::take(&mut cur));
+        }
+        if !cur.is_empty() {
+            cur.push(' ');
+        }
+        cur.push_str(word);
+    }
+    if !cur.is_empty() {
+        lines.push(cur);
+    }
+    lines
 }
 
 /// Certified bits per round (planning, W published) at `n` rounds.
@@ -536,7 +591,7 @@ fn draw_plot(path: &Path, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
             .x_label_formatter(&|x| format!("1e{}", x.log10().round()))
             .draw()
             .map_err(|e| anyhow!("plot: {e}"))?;
-        let colours = [BLUE, RED, GREEN];
+        let colours = [BLUE, RED, RGBColor(0, 140, 0)];
         for (i, (g, pts)) in series.iter().enumerate() {
             let c = colours[i % 3];
             let label = if (*g - p.gamma).abs() < 1e-15 {
@@ -760,14 +815,16 @@ fn read_record(
 }
 
 fn read_counts(path: &Path, gamma: f64) -> Result<Summary> {
-    let (kv, _) = read_key_values(path, &["rounds", "test-rounds", "wins"])?;
+    let allowed = [&PARAM_KEYS[..], &COUNT_KEYS[..]].concat();
+    let (kv, _) = read_key_values(path, &allowed)?;
     let mut vals = [None; 3];
     for (k, v, line) in kv {
-        let i = ["rounds", "test-rounds", "wins"]
+        if let Some(i) = ["rounds", "test-rounds", "wins"]
             .iter()
             .position(|&x| x == k)
-            .unwrap();
-        vals[i] = Some(parse_num::<u64>(path, line, &k, &v)?);
+        {
+            vals[i] = Some(parse_num::<u64>(path, line, &k, &v)?);
+        }
     }
     let get = |i: usize, name: &str| {
         vals[i].ok_or_else(|| anyhow!("{}: the line {name} = ... is missing", path.display()))
@@ -1248,6 +1305,14 @@ fn print_text(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn wrapping_keeps_every_word() {
+        let t = "one two three four five six seven eight nine ten eleven twelve";
+        let w = wrap(t, 15);
+        assert!(w.iter().all(|l| l.len() <= 15), "{w:?}");
+        assert_eq!(w.join(" "), t);
+    }
 
     #[test]
     fn neighbouring_gammas_stay_in_range() {
