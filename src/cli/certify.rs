@@ -878,6 +878,7 @@ struct CertifyReport<'a> {
     disclosure_charge_bits: u64,
     result: &'a ResultTerms,
     warnings: &'a [String],
+    parameters_file: Option<String>,
     certificate_file: Option<String>,
     raw_file: Option<String>,
     cautions: Vec<&'static str>,
@@ -1145,6 +1146,7 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
         disclosure_charge_bits: d_pub,
         result: &terms,
         warnings: &summary.input_warnings,
+        parameters_file: r.from_file.as_ref().map(|(p, _)| p.display().to_string()),
         certificate_file,
         raw_file,
         cautions: cautions(mode).to_vec(),
@@ -1281,7 +1283,19 @@ fn print_text(
         o,
         "  meaning: eps_total bounds Pr[accept] times the distance from ideal output, not the distance given acceptance"
     )?;
-    let _ = s;
+    match &rep.parameters_file {
+        Some(f) => writeln!(o, "parameters: read from {f} (its digest is recorded in the certificate)")?,
+        None => writeln!(
+            o,
+            "parameters: given as options; they make a certificate only if they were fixed before the run (caution 6)"
+        )?,
+    }
+    if !s.has_pair_counts {
+        writeln!(
+            o,
+            "note: computed from counts; the rounds themselves were not checked"
+        )?;
+    }
     for w in rep.warnings {
         writeln!(o, "warning: {w}")?;
     }
