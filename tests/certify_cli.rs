@@ -97,13 +97,20 @@ fn certifies_a_simulated_record_and_writes_the_raw_string() {
     #[cfg(unix)]
     {
         use std::os::unix::fs::PermissionsExt;
-        assert_eq!(std::fs::metadata(&raw).unwrap().permissions().mode() & 0o777, 0o600);
+        assert_eq!(
+            std::fs::metadata(&raw).unwrap().permissions().mode() & 0o777,
+            0o600
+        );
     }
     // The figure equals the library's planning figure for the same
     // parameters with the actual N_test = N_rounds (gamma = 1): the bound
     // does not depend on W once the run passes (spec 3.4).
     let plan = sluice(&[
-        "certify", "--plan", "--params", params.to_str().unwrap(), "--json",
+        "certify",
+        "--plan",
+        "--params",
+        params.to_str().unwrap(),
+        "--json",
     ]);
     let p = json(&plan);
     // planning charges ceil(log2(N + 1)) = 20 bits for W, like N_test = N here
@@ -111,7 +118,10 @@ fn certifies_a_simulated_record_and_writes_the_raw_string() {
     assert!(c.min_entropy_bits > 400_000, "{}", c.min_entropy_bits);
     assert_eq!(c.disclosure_charge_bits, 20);
     // No temporary files are left behind.
-    let names: Vec<_> = std::fs::read_dir(dir.path()).unwrap().map(|e| e.unwrap().file_name()).collect();
+    let names: Vec<_> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name())
+        .collect();
     assert_eq!(names.len(), 4, "{names:?}");
 }
 
@@ -127,9 +137,25 @@ fn gzip_record_gives_the_same_certificate() {
     for (rec, name) in [(&plain, "a.json"), (&packed, "b.json")] {
         let cert = dir.path().join(name);
         let o = sluice(&[
-            "certify", rec.to_str().unwrap(), "--rounds", "20000", "--test-probability", "0.5",
-            "--expected-win", "0.85", "--tolerance", "0.02", "--smoothing", "1e-3",
-            "--acceptance", "1e-3", "--setup", "shielded", "-o", cert.to_str().unwrap(), "--json",
+            "certify",
+            rec.to_str().unwrap(),
+            "--rounds",
+            "20000",
+            "--test-probability",
+            "0.5",
+            "--expected-win",
+            "0.85",
+            "--tolerance",
+            "0.02",
+            "--smoothing",
+            "1e-3",
+            "--acceptance",
+            "1e-3",
+            "--setup",
+            "shielded",
+            "-o",
+            cert.to_str().unwrap(),
+            "--json",
         ]);
         assert!(o.status.success(), "{}", stderr(&o));
         certs.push(Certificate::from_json_str(&std::fs::read_to_string(&cert).unwrap()).unwrap());
@@ -148,9 +174,25 @@ fn aborted_run_writes_no_raw_output() {
     let cert = dir.path().join("c.json");
     let raw = dir.path().join("raw.bin");
     let o = sluice(&[
-        "certify", rec.to_str().unwrap(), "--rounds", "10000", "--test-probability", "0.5",
-        "--expected-win", "0.85", "--tolerance", "0.01", "--smoothing", "1e-6", "--acceptance",
-        "1e-6", "--setup", "separated", "-o", cert.to_str().unwrap(), "--raw-out",
+        "certify",
+        rec.to_str().unwrap(),
+        "--rounds",
+        "10000",
+        "--test-probability",
+        "0.5",
+        "--expected-win",
+        "0.85",
+        "--tolerance",
+        "0.01",
+        "--smoothing",
+        "1e-6",
+        "--acceptance",
+        "1e-6",
+        "--setup",
+        "separated",
+        "-o",
+        cert.to_str().unwrap(),
+        "--raw-out",
         raw.to_str().unwrap(),
     ]);
     assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
@@ -166,12 +208,30 @@ fn aborted_run_writes_no_raw_output() {
 fn record_errors_name_the_line() {
     let dir = tempfile::tempdir().unwrap();
     let common = [
-        "--rounds", "3", "--test-probability", "0.5", "--expected-win", "0.85", "--tolerance",
-        "0.01", "--smoothing", "1e-6", "--acceptance", "1e-6", "--setup", "separated",
+        "--rounds",
+        "3",
+        "--test-probability",
+        "0.5",
+        "--expected-win",
+        "0.85",
+        "--tolerance",
+        "0.01",
+        "--smoothing",
+        "1e-6",
+        "--acceptance",
+        "1e-6",
+        "--setup",
+        "separated",
     ];
     let cases: [(&[u8], &str); 4] = [
-        (b"# header\n11011\n1x011\n00000\n", "line 3: \"1x011\" is not a round"),
-        (b"11011\n00000\n01100\n", "line 3: a generation round (test flag 0) has inputs x = 1, y = 1"),
+        (
+            b"# header\n11011\n1x011\n00000\n",
+            "line 3: \"1x011\" is not a round",
+        ),
+        (
+            b"11011\n00000\n01100\n",
+            "line 3: a generation round (test flag 0) has inputs x = 1, y = 1",
+        ),
         (b"11011\n00000\n", "the record holds 2 rounds"),
         (b"11011\n00000\n1101\n", "line 3: \"1101\" is not a round"),
     ];
@@ -181,7 +241,11 @@ fn record_errors_name_the_line() {
         args.extend_from_slice(&common);
         let o = sluice(&args);
         assert_eq!(o.status.code(), Some(2));
-        assert!(stderr(&o).contains(want), "want {want:?}, got {}", stderr(&o));
+        assert!(
+            stderr(&o).contains(want),
+            "want {want:?}, got {}",
+            stderr(&o)
+        );
     }
 }
 
@@ -190,24 +254,63 @@ fn win_fraction_above_quantum_is_refused_with_its_value() {
     // spec 1 and 8: more than 5 sigma above cos^2(pi/8) is an error naming
     // the value. 9500 of 10000 test rounds won: 0.95.
     let dir = tempfile::tempdir().unwrap();
-    let counts = write(dir.path(), "c.txt", b"rounds = 10000\ntest-rounds = 10000\nwins = 9500\n");
+    let counts = write(
+        dir.path(),
+        "c.txt",
+        b"rounds = 10000\ntest-rounds = 10000\nwins = 9500\n",
+    );
     let o = sluice(&[
-        "certify", "--counts", counts.to_str().unwrap(), "--rounds", "10000",
-        "--test-probability", "1", "--expected-win", "0.85", "--tolerance", "0.01",
-        "--smoothing", "1e-6", "--acceptance", "1e-6", "--setup", "separated",
+        "certify",
+        "--counts",
+        counts.to_str().unwrap(),
+        "--rounds",
+        "10000",
+        "--test-probability",
+        "1",
+        "--expected-win",
+        "0.85",
+        "--tolerance",
+        "0.01",
+        "--smoothing",
+        "1e-6",
+        "--acceptance",
+        "1e-6",
+        "--setup",
+        "separated",
     ]);
     assert_eq!(o.status.code(), Some(2));
-    assert!(stderr(&o).contains("win fraction 0.950000"), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("win fraction 0.950000"),
+        "{}",
+        stderr(&o)
+    );
 }
 
 /// spec 3.7 worked example as counts: N = 1e8, N_test = 1e7, W = 8.4e6.
 fn worked_example(extra: &[&str]) -> Output {
     let dir = tempfile::tempdir().unwrap();
-    let counts = write(dir.path(), "c.txt", b"rounds = 1e8\ntest-rounds = 10000000\nwins = 8400000\n");
+    let counts = write(
+        dir.path(),
+        "c.txt",
+        b"rounds = 1e8\ntest-rounds = 10000000\nwins = 8400000\n",
+    );
     let mut args = vec![
-        "certify", "--counts", counts.to_str().unwrap(), "--rounds", "1e8", "--test-probability",
-        "0.1", "--expected-win", "0.84", "--tolerance", "0.002", "--smoothing", "1e-6",
-        "--acceptance", "1e-6", "--json",
+        "certify",
+        "--counts",
+        counts.to_str().unwrap(),
+        "--rounds",
+        "1e8",
+        "--test-probability",
+        "0.1",
+        "--expected-win",
+        "0.84",
+        "--tolerance",
+        "0.002",
+        "--smoothing",
+        "1e-6",
+        "--acceptance",
+        "1e-6",
+        "--json",
     ];
     args.extend_from_slice(extra);
     sluice(&args)
@@ -241,17 +344,39 @@ fn single_device_is_labelled_everywhere() {
     let o = worked_example(&["--setup", "single-device"]);
     assert!(o.status.success(), "{}", stderr(&o));
     let v = json(&o);
-    assert!(v["labels"][0].as_str().unwrap().contains("not device-independent"));
+    assert!(v["labels"][0]
+        .as_str()
+        .unwrap()
+        .contains("not device-independent"));
     let dir = tempfile::tempdir().unwrap();
     let (text, _) = simulated(1000, 0.85, 0.5, 9);
     let rec = write(dir.path(), "r.txt", &text);
     let cert = dir.path().join("c.json");
     let o = sluice(&[
-        "certify", rec.to_str().unwrap(), "--rounds", "1000", "--test-probability", "0.5",
-        "--expected-win", "0.85", "--tolerance", "0.05", "--smoothing", "1e-3", "--acceptance",
-        "1e-3", "--setup", "single-device", "-o", cert.to_str().unwrap(),
+        "certify",
+        rec.to_str().unwrap(),
+        "--rounds",
+        "1000",
+        "--test-probability",
+        "0.5",
+        "--expected-win",
+        "0.85",
+        "--tolerance",
+        "0.05",
+        "--smoothing",
+        "1e-3",
+        "--acceptance",
+        "1e-3",
+        "--setup",
+        "single-device",
+        "-o",
+        cert.to_str().unwrap(),
     ]);
-    assert!(stdout(&o).contains("not device-independent"), "{}", stdout(&o));
+    assert!(
+        stdout(&o).contains("not device-independent"),
+        "{}",
+        stdout(&o)
+    );
     let c = Certificate::from_json_str(&std::fs::read_to_string(&cert).unwrap()).unwrap();
     assert!(!c.device_independent);
     // A setup must be declared.
@@ -265,16 +390,34 @@ fn iid_estimate_from_counts() {
     // spec 4 table, first row: 3016 test rounds, 2418 won, eps_est = 0.01:
     // 238.58 bits, minus 12 bits for publishing W, floored: 226.
     let dir = tempfile::tempdir().unwrap();
-    let counts = write(dir.path(), "c.txt", b"rounds = 3016\ntest-rounds = 3016\nwins = 2418\n");
+    let counts = write(
+        dir.path(),
+        "c.txt",
+        b"rounds = 3016\ntest-rounds = 3016\nwins = 2418\n",
+    );
     let o = sluice(&[
-        "certify", "--counts", counts.to_str().unwrap(), "--rounds", "3016",
-        "--test-probability", "1", "--model", "iid", "--estimation-error", "0.01", "--setup",
-        "separated", "--json",
+        "certify",
+        "--counts",
+        counts.to_str().unwrap(),
+        "--rounds",
+        "3016",
+        "--test-probability",
+        "1",
+        "--model",
+        "iid",
+        "--estimation-error",
+        "0.01",
+        "--setup",
+        "separated",
+        "--json",
     ]);
     assert!(o.status.success(), "{}", stderr(&o));
     let v = json(&o);
     assert_eq!(v["min_entropy_bits"], 226);
-    assert!(v["labels"][1].as_str().unwrap().starts_with("i.i.d. estimate"));
+    assert!(v["labels"][1]
+        .as_str()
+        .unwrap()
+        .starts_with("i.i.d. estimate"));
     assert!((v["result"]["win_lower_bound"].as_f64().unwrap() - 0.774093).abs() < 1e-6);
 }
 
@@ -284,9 +427,23 @@ fn plan_reproduces_regression_vectors_and_draws() {
     let dir = tempfile::tempdir().unwrap();
     let svg = dir.path().join("plan.svg");
     let o = sluice(&[
-        "certify", "--plan", "--rounds", "1e8", "--test-probability", "0.1", "--expected-win",
-        "0.84", "--tolerance", "0.002", "--smoothing", "1e-6", "--acceptance", "1e-6", "--json",
-        "--plot", svg.to_str().unwrap(),
+        "certify",
+        "--plan",
+        "--rounds",
+        "1e8",
+        "--test-probability",
+        "0.1",
+        "--expected-win",
+        "0.84",
+        "--tolerance",
+        "0.002",
+        "--smoothing",
+        "1e-6",
+        "--acceptance",
+        "1e-6",
+        "--json",
+        "--plot",
+        svg.to_str().unwrap(),
     ]);
     assert!(o.status.success(), "{}", stderr(&o));
     let v = json(&o);
@@ -297,8 +454,21 @@ fn plan_reproduces_regression_vectors_and_draws() {
     assert!(s.contains("<svg") && s.contains("gamma = 0.1 (given)"));
     // Table A of 3.7: gamma 1, N = 1e6, delta for eps_c = 1e-6: H = 466383.
     let o = sluice(&[
-        "certify", "--plan", "--rounds", "1000000", "--test-probability", "1", "--expected-win",
-        "0.84", "--completeness", "1e-6", "--smoothing", "1e-6", "--acceptance", "1e-6", "--json",
+        "certify",
+        "--plan",
+        "--rounds",
+        "1000000",
+        "--test-probability",
+        "1",
+        "--expected-win",
+        "0.84",
+        "--completeness",
+        "1e-6",
+        "--smoothing",
+        "1e-6",
+        "--acceptance",
+        "1e-6",
+        "--json",
     ]);
     assert_eq!(json(&o)["result"]["bits"], 466_383);
 }
@@ -308,13 +478,22 @@ fn parameters_are_given_once() {
     let dir = tempfile::tempdir().unwrap();
     let params = write(dir.path(), "p.txt", PARAMS_1E6.as_bytes());
     let o = sluice(&[
-        "certify", "--plan", "--params", params.to_str().unwrap(), "--tolerance", "0.001",
+        "certify",
+        "--plan",
+        "--params",
+        params.to_str().unwrap(),
+        "--tolerance",
+        "0.001",
     ]);
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains("given both"), "{}", stderr(&o));
     let bad = write(dir.path(), "q.txt", b"rounds = 10\ngama = 0.5\n");
     let o = sluice(&["certify", "--plan", "--params", bad.to_str().unwrap()]);
-    assert!(stderr(&o).contains("line 2: unknown key \"gama\""), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("line 2: unknown key \"gama\""),
+        "{}",
+        stderr(&o)
+    );
 }
 
 #[test]
@@ -330,22 +509,45 @@ fn counts_file_may_carry_the_parameters() {
           test-rounds = 10000000\nwins = 8400000\n",
     );
     let raw = write(dir.path(), "raw.bin", &[]);
-    let o = sluice(&["certify", "--counts", f.to_str().unwrap(), "--setup", "separated", "--json"]);
+    let o = sluice(&[
+        "certify",
+        "--counts",
+        f.to_str().unwrap(),
+        "--setup",
+        "separated",
+        "--json",
+    ]);
     assert!(o.status.success(), "{}", stderr(&o));
     assert_eq!(json(&o)["min_entropy_bits"], 52_402_726);
     // A certificate needs the raw string: with counts, --raw-in names it,
     // and its size must match 2 N_rounds bits.
     let cert = dir.path().join("c.json");
     let o = sluice(&[
-        "certify", "--counts", f.to_str().unwrap(), "--setup", "separated", "-o",
+        "certify",
+        "--counts",
+        f.to_str().unwrap(),
+        "--setup",
+        "separated",
+        "-o",
         cert.to_str().unwrap(),
     ]);
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains("--raw-in"), "{}", stderr(&o));
     let o = sluice(&[
-        "certify", "--counts", f.to_str().unwrap(), "--setup", "separated", "--raw-in",
-        raw.to_str().unwrap(), "-o", cert.to_str().unwrap(),
+        "certify",
+        "--counts",
+        f.to_str().unwrap(),
+        "--setup",
+        "separated",
+        "--raw-in",
+        raw.to_str().unwrap(),
+        "-o",
+        cert.to_str().unwrap(),
     ]);
     assert_eq!(o.status.code(), Some(2));
-    assert!(stderr(&o).contains("needs 25000000 bytes"), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("needs 25000000 bytes"),
+        "{}",
+        stderr(&o)
+    );
 }
