@@ -44,6 +44,21 @@ fn parse(c: &mut Criterion) {
             black_box((t, x))
         })
     });
+    // From a file on disk (in the page cache after the first pass), as
+    // the command reads it.
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("bench.rounds");
+    std::fs::write(&path, &data).unwrap();
+    g.bench_function("counts only, from a file", |b| {
+        b.iter(|| {
+            let f = std::fs::File::open(&path).unwrap();
+            let mut r = RecordReader::new(BufReader::with_capacity(1 << 20, f));
+            let mut t = Tally::new();
+            while r.read_rounds(1 << 20, &mut t, None).unwrap() > 0 {}
+            assert_eq!(t.rounds(), ROUNDS);
+            black_box(t)
+        })
+    });
     g.finish();
 }
 

@@ -182,6 +182,23 @@ pub struct Certificate {
     pub tool: String,
 }
 
+/// What an extractor takes from a certificate (spec 3.8): hash exactly the
+/// string named by `digest` and `n` bits, as one block, with min-entropy
+/// `k`, smoothing `eps_s`, and `eps_cert` counted once in eps_total.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ExtractorInput {
+    /// Input length n in bits (`2 N_rounds`).
+    pub n: u64,
+    /// Certified smooth min-entropy k in bits.
+    pub k: u64,
+    /// Smoothing parameter.
+    pub eps_s: f64,
+    /// Certification failure term, once per certificate.
+    pub eps_cert: f64,
+    /// Data digest of the string.
+    pub digest: String,
+}
+
 fn invalid(field: &str, msg: String) -> Error {
     Error::new(ErrorKind::Certificate(msg)).in_field(field)
 }
@@ -204,6 +221,31 @@ impl Certificate {
         })?;
         c.validate()?;
         Ok(c)
+    }
+
+    /// The inputs for the extractor, or an error naming `accepted` or
+    /// `min_entropy_bits` when there is nothing to extract (an aborted run
+    /// outputs nothing; spec 3.1).
+    pub fn extractor_input(&self) -> Result<ExtractorInput, Error> {
+        if !self.accepted {
+            return Err(invalid(
+                "accepted",
+                "false: the run aborted, so the protocol outputs nothing".into(),
+            ));
+        }
+        if self.min_entropy_bits == 0 {
+            return Err(invalid(
+                "min_entropy_bits",
+                "0: the certificate certifies no entropy, so nothing can be extracted".into(),
+            ));
+        }
+        Ok(ExtractorInput {
+            n: self.string.length_bits,
+            k: self.min_entropy_bits,
+            eps_s: self.eps_s,
+            eps_cert: self.eps_cert,
+            digest: self.string.digest.clone(),
+        })
     }
 
     /// The certificate as pretty JSON.
@@ -451,6 +493,19 @@ pub(crate) mod tests {
         assert!(text.contains("\"schema\": \"sluice-certificate/1\""));
         assert!(text.contains("\"mode\": \"entropy-accumulation\""));
         assert_eq!(Certificate::from_json_str(&text).unwrap(), c);
+    }
+
+    #[test]
+    fn extractor_input_is_one_block_of_the_pair_string() {
+        let c = sample();
+        let e = c.extractor_input().unwrap();
+        assert_eq!((e.n, e.k), (200_000_000, 52_402_726));
+        assert_eq!(e.eps_cert, 1e-6);
+        let mut aborted = sample();
+        aborted.accepted = false;
+        aborted.min_entropy_bits = 0;
+        let err = aborted.extractor_input().unwrap_err();
+        assert_eq!(err.position().field.as_deref(), Some("accepted"));
     }
 
     #[test]
