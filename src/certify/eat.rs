@@ -480,6 +480,10 @@ mod tests {
             r.zero_reason,
             Some(ZeroReason::SecondOrderExceedsFirstOrder)
         );
+        // spec 5, note on row 7: "second-order term 5289 bits against a
+        // first-order 934 bits" for this record.
+        assert_eq!(r.first_order_bits.round(), 934.0);
+        assert_eq!(r.second_order_bits.round(), 5289.0);
     }
 
     #[test]
