@@ -23,8 +23,8 @@
 //! run-time detection of those kernels, so the portable path can be tested.
 
 #![warn(missing_docs)]
-
 pub mod bits;
+pub mod certify;
 pub mod extract;
 pub mod gf2;
 pub mod pipeline;

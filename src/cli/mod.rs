@@ -6,6 +6,7 @@
 //! for scripts; progress bars appear only on a terminal.
 
 mod bench;
+mod certify;
 mod common;
 mod demo;
 mod extract;
@@ -31,6 +32,8 @@ enum Command {
     Verify(extract::VerifyArgs),
     /// Compare the extractors for your security inputs and pick one
     Plan(plan::PlanArgs),
+    /// Certify the record of a CHSH Bell test (or plan a run)
+    Certify(certify::CertifyArgs),
     /// Run the main job on a built-in simulated source, start to finish
     Demo(demo::DemoArgs),
     /// Check the published test vectors
@@ -57,6 +60,7 @@ pub fn main() -> ExitCode {
         Command::Extract(a) => extract::run_extract(a),
         Command::Verify(a) => extract::run_verify(a),
         Command::Plan(a) => plan::run(a),
+        Command::Certify(a) => certify::run(a),
         Command::Vectors(a) => vectors::run(a),
         Command::Demo(a) => demo::run(a),
         Command::Bench(a) => bench::run(a),

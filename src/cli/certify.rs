@@ -1,0 +1,1337 @@
+//! `sluice certify`: from the record of a CHSH Bell test to a certified
+//! smooth min-entropy and a certificate file (`spec/certification.md`).
+//!
+//! Exit status: 0 when the run passed the test (or for `--plan`), 1 when the
+//! test failed (the protocol aborts: no raw output is written), 2 on error.
+
+use super::common::{print_json, progress};
+use anyhow::{anyhow, bail, Context, Result};
+use serde::Serialize;
+use sluice::bits::digest::DataDigest;
+use sluice::bits::io::BitWriter;
+use sluice::bits::{BitOrder, Bits, Format};
+use sluice::certify::certificate::{
+    Certificate, CertifiedString, Parameters, PublicValues, RecordInfo, ResultTerms, PAIR_LAYOUT,
+    SCHEMA,
+};
+use sluice::certify::eat::{
+    completeness, delta_for_completeness, eat_certify, eat_plan, EatParams, EatResult, MARGIN_BITS,
+};
+use sluice::certify::iid::{iid_estimate, IID_LABEL};
+use sluice::certify::record::{RecordReader, Summary, Tally};
+use sluice::certify::{cautions, Mode, PublicStat, Setup};
+use std::cell::RefCell;
+use std::fs::File;
+use std::io::{BufRead, BufReader, Read, Write};
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+use std::rc::Rc;
+
+/// Rounds parsed per step (a multiple of 4, so raw output stays byte-aligned).
+const CHUNK_ROUNDS: usize = 1 << 20;
+
+/// Certify the record of a CHSH Bell test, or plan a run.
+///
+/// The protocol parameters must be the ones fixed before the run: give them
+/// as options or in a parameters file (`--params`), lines `key = value` with
+/// the keys rounds, test-probability, expected-win, tolerance, smoothing,
+/// acceptance, estimation-error ('#' starts a comment).
+#[derive(clap::Args, Debug)]
+pub struct CertifyArgs {
+    /// Round file (one round per line: T X Y A B; gzip accepted; '-' reads
+    /// standard input).
+    #[arg(value_name = "RECORD")]
+    record: Option<PathBuf>,
+
+    /// Use counts instead of a round file: a file with the lines
+    /// `rounds = N`, `test-rounds = N_TEST`, `wins = W`.
+    #[arg(long, value_name = "FILE", conflicts_with = "record")]
+    counts: Option<PathBuf>,
+
+    /// With --counts: the raw output file (2 N packed bits a1 b1 .. aN bN)
+    /// that the certificate names by digest.
+    #[arg(long, value_name = "FILE", requires = "counts")]
+    raw_in: Option<PathBuf>,
+
+    /// Parameters file (key = value lines), fixed before the run.
+    #[arg(long, value_name = "FILE")]
+    params: Option<PathBuf>,
+
+    /// Number of rounds N_rounds (1e8 is accepted).
+    #[arg(long, value_name = "N", value_parser = parse_count)]
+    rounds: Option<u64>,
+
+    /// Probability gamma that a round is a test round (0 < gamma <= 1).
+    #[arg(long, value_name = "GAMMA")]
+    test_probability: Option<f64>,
+
+    /// Expected win probability w_exp of honest devices.
+    #[arg(long, value_name = "W")]
+    expected_win: Option<f64>,
+
+    /// Tolerance delta: accept iff W >= gamma N (w_exp - delta).
+    #[arg(long, value_name = "DELTA")]
+    tolerance: Option<f64>,
+
+    /// With --plan: choose delta so honest devices abort with at most this
+    /// probability (instead of --tolerance).
+    #[arg(long, value_name = "EPS_C", conflicts_with = "tolerance")]
+    completeness: Option<f64>,
+
+    /// Smoothing parameter eps_s.
+    #[arg(long, value_name = "EPS_S")]
+    smoothing: Option<f64>,
+
+    /// Acceptance parameter eps_EA.
+    #[arg(long, value_name = "EPS_EA")]
+    acceptance: Option<f64>,
+
+    /// Model: entropy-accumulation (default), or iid (weaker: assumes
+    /// independent, identical rounds).
+    #[arg(long, value_name = "MODEL", default_value = "entropy-accumulation",
+          value_parser = ["entropy-accumulation", "iid"])]
+    model: String,
+
+    /// With --model iid: the estimation failure probability eps_est.
+    #[arg(long, value_name = "EPS_EST")]
+    estimation_error: Option<f64>,
+
+    /// How the devices were kept from signalling: separated, shielded or
+    /// single-device (single-device is not device-independent).
+    #[arg(long, value_name = "SETUP", value_parser = ["separated", "shielded", "single-device"])]
+    setup: Option<String>,
+
+    /// Statistics to publish, charged against the figure: comma list of
+    /// wins, s-hat, pair-00, pair-01, pair-10, pair-11, or none.
+    #[arg(long, value_name = "LIST", default_value = "wins")]
+    public: String,
+
+    /// Write the certificate JSON here (keep it private: it holds digests
+    /// of the raw data).
+    #[arg(short = 'o', long = "output", value_name = "CERT.json")]
+    output: Option<PathBuf>,
+
+    /// Write the raw output bits a1 b1 .. aN bN here (packed, owner-only).
+    #[arg(long, value_name = "FILE", requires = "record")]
+    raw_out: Option<PathBuf>,
+
+    /// Plan a run instead: the bits a passing run would certify.
+    #[arg(long, conflicts_with_all = ["record", "counts", "output", "raw_out"])]
+    plan: bool,
+
+    /// With --plan: draw certified bits per round against N (SVG).
+    #[arg(long, value_name = "FILE.svg", requires = "plan")]
+    plot: Option<PathBuf>,
+
+    /// Print one JSON document for scripts.
+    #[arg(long)]
+    json: bool,
+}
+
+/// Protocol parameters with their origin.
+#[derive(Debug, Default, Clone)]
+struct Resolved {
+    rounds: Option<u64>,
+    gamma: Option<f64>,
+    w_exp: Option<f64>,
+    delta: Option<f64>,
+    eps_s: Option<f64>,
+    eps_ea: Option<f64>,
+    eps_est: Option<f64>,
+    from_file: Option<(PathBuf, String)>,
+}
+
+/// `(key, value, line number)` entries of a `key = value` file.
+type KeyValues = Vec<(String, String, usize)>;
+
+/// Keys of the parameters file.
+const PARAM_KEYS: [&str; 7] = [
+    "rounds",
+    "test-probability",
+    "expected-win",
+    "tolerance",
+    "smoothing",
+    "acceptance",
+    "estimation-error",
+];
+
+/// Keys of the counts file (besides the parameters it may carry).
+const COUNT_KEYS: [&str; 2] = ["test-rounds", "wins"];
+
+/// Reads `key = value` lines ('#' comments, blank lines ignored); returns
+/// them with the BLAKE3 hex digest of the file.
+fn read_key_values(path: &Path, allowed: &[&str]) -> Result<(KeyValues, String)> {
+    let bytes = std::fs::read(path).with_context(|| format!("cannot read {}", path.display()))?;
+    let digest = blake3::hash(&bytes).to_hex().to_string();
+    let text = String::from_utf8(bytes).map_err(|e| {
+        anyhow!(
+            "{}: byte {}: not UTF-8 text",
+            path.display(),
+            e.utf8_error().valid_up_to()
+        )
+    })?;
+    let mut out: Vec<(String, String, usize)> = Vec::new();
+    for (i, raw) in text.lines().enumerate() {
+        let line = raw.split('#').next().unwrap_or("").trim();
+        if line.is_empty() {
+            continue;
+        }
+        let Some((k, v)) = line.split_once('=') else {
+            bail!(
+                "{}: line {}: {:?} is not of the form key = value",
+                path.display(),
+                i + 1,
+                raw
+            );
+        };
+        let (k, v) = (k.trim().to_string(), v.trim().to_string());
+        if !allowed.contains(&k.as_str()) {
+            bail!(
+                "{}: line {}: unknown key {:?}; the keys are {}",
+                path.display(),
+                i + 1,
+                k,
+                allowed.join(", ")
+            );
+        }
+        if out.iter().any(|(o, _, _)| *o == k) {
+            bail!("{}: line {}: {:?} is given twice", path.display(), i + 1, k);
+        }
+        out.push((k, v, i + 1));
+    }
+    Ok((out, digest))
+}
+
+/// A count written as an integer or as an exact power form such as 1e8.
+fn parse_count(s: &str) -> std::result::Result<u64, String> {
+    let t = s.replace('_', "");
+    if let Ok(v) = t.parse::<u64>() {
+        return Ok(v);
+    }
+    match t.parse::<f64>() {
+        Ok(f) if f.fract() == 0.0 && (0.0..1.8e19).contains(&f) => Ok(f as u64),
+        _ => Err(format!("{s:?} is not a whole number of rounds")),
+    }
+}
+
+fn parse_num<T: std::str::FromStr>(path: &Path, line: usize, key: &str, v: &str) -> Result<T> {
+    let v2 = v.replace('_', "");
+    // Accept integers written as 1e8 too.
+    if let Ok(x) = v2.parse::<T>() {
+        return Ok(x);
+    }
+    if let Ok(f) = v2.parse::<f64>() {
+        if f.fract() == 0.0 && (0.0..1.8e19).contains(&f) {
+            if let Ok(x) = format!("{}", f as u64).parse::<T>() {
+                return Ok(x);
+            }
+        }
+    }
+    bail!(
+        "{}: line {line}: {key} = {v:?} is not a number of the right kind",
+        path.display()
+    )
+}
+
+impl CertifyArgs {
+    fn resolve(&self) -> Result<Resolved> {
+        let mut r = Resolved {
+            rounds: self.rounds,
+            gamma: self.test_probability,
+            w_exp: self.expected_win,
+            delta: self.tolerance,
+            eps_s: self.smoothing,
+            eps_ea: self.acceptance,
+            eps_est: self.estimation_error,
+            from_file: None,
+        };
+        // The parameters file, or else the counts file, which may carry
+        // the parameters too (one summary file for users with counts only).
+        let file = self.params.as_ref().or(self.counts.as_ref());
+        if let Some(path) = file {
+            let mut allowed: Vec<&str> = PARAM_KEYS.to_vec();
+            if self.params.is_none() {
+                allowed.extend_from_slice(&COUNT_KEYS);
+            }
+            let (kv, digest) = read_key_values(path, &allowed)?;
+            let mut any = false;
+            for (k, v, line) in kv {
+                if COUNT_KEYS.contains(&k.as_str()) {
+                    continue;
+                }
+                if self.params.is_none() && k == "rounds" {
+                    // In a counts file, rounds is the count; it is checked
+                    // against --rounds (or taken as N_rounds) later.
+                    if r.rounds.is_none() {
+                        r.rounds = Some(parse_num(path, line, &k, &v)?);
+                    }
+                    continue;
+                }
+                any = true;
+                let clash = |given: bool| -> Result<()> {
+                    if given {
+                        bail!(
+                            "{k} is given both in {} (line {line}) and as --{k}; give each parameter once",
+                            path.display()
+                        );
+                    }
+                    Ok(())
+                };
+                match k.as_str() {
+                    "rounds" => {
+                        clash(r.rounds.is_some())?;
+                        r.rounds = Some(parse_num(path, line, &k, &v)?)
+                    }
+                    "test-probability" => {
+                        clash(r.gamma.is_some())?;
+                        r.gamma = Some(parse_num(path, line, &k, &v)?)
+                    }
+                    "expected-win" => {
+                        clash(r.w_exp.is_some())?;
+                        r.w_exp = Some(parse_num(path, line, &k, &v)?)
+                    }
+                    "tolerance" => {
+                        clash(r.delta.is_some())?;
+                        r.delta = Some(parse_num(path, line, &k, &v)?)
+                    }
+                    "smoothing" => {
+                        clash(r.eps_s.is_some())?;
+                        r.eps_s = Some(parse_num(path, line, &k, &v)?)
+                    }
+                    "acceptance" => {
+                        clash(r.eps_ea.is_some())?;
+                        r.eps_ea = Some(parse_num(path, line, &k, &v)?)
+                    }
+                    _ => {
+                        clash(r.eps_est.is_some())?;
+                        r.eps_est = Some(parse_num(path, line, &k, &v)?)
+                    }
+                }
+            }
+            if self.params.is_some() || any {
+                r.from_file = Some((path.clone(), digest));
+            }
+        }
+        Ok(r)
+    }
+
+    fn mode(&self) -> Mode {
+        if self.model == "iid" {
+            Mode::IidEstimate
+        } else {
+            Mode::EntropyAccumulation
+        }
+    }
+
+    fn setup(&self) -> Result<Setup> {
+        match self.setup.as_deref() {
+            Some("separated") => Ok(Setup::Separated),
+            Some("shielded") => Ok(Setup::Shielded),
+            Some("single-device") => Ok(Setup::SingleDevice),
+            _ => bail!(
+                "--setup is required: declare how the devices were kept from signalling (separated, shielded or single-device)"
+            ),
+        }
+    }
+
+    fn public(&self) -> Result<Vec<PublicStat>> {
+        if self.public.trim() == "none" {
+            return Ok(Vec::new());
+        }
+        let mut v = Vec::new();
+        for item in self.public.split(',') {
+            let p = PublicStat::parse(item.trim()).map_err(|e| anyhow!("--{e}"))?;
+            if !v.contains(&p) {
+                v.push(p);
+            }
+        }
+        Ok(v)
+    }
+}
+
+fn need<T>(v: Option<T>, name: &str) -> Result<T> {
+    v.ok_or_else(|| anyhow!("--{name} is missing (give it as an option or in the --params file)"))
+}
+
+fn eat_params(r: &Resolved, delta: f64) -> Result<EatParams> {
+    Ok(EatParams {
+        n_rounds: need(r.rounds, "rounds")?,
+        gamma: need(r.gamma, "test-probability")?,
+        w_exp: need(r.w_exp, "expected-win")?,
+        delta,
+        eps_s: need(r.eps_s, "smoothing")?,
+        eps_ea: need(r.eps_ea, "acceptance")?,
+    })
+}
+
+/// Runs the command.
+pub fn run(args: CertifyArgs) -> Result<ExitCode> {
+    if args.plan {
+        return run_plan(&args);
+    }
+    if args.record.is_none() && args.counts.is_none() {
+        bail!("give a round file, --counts FILE, or --plan");
+    }
+    if args.completeness.is_some() {
+        bail!("--completeness is for --plan; a run is certified with the tolerance fixed before it (--tolerance)");
+    }
+    run_certify(&args)
+}
+
+// ---------------------------------------------------------------- planning
+
+#[derive(Serialize)]
+struct PlanReport {
+    kind: &'static str,
+    label: &'static str,
+    parameters: EatParams,
+    result: EatResult,
+    bits_per_round: f64,
+    zero_reason: Option<&'static str>,
+    plot: Option<String>,
+    cautions: Vec<&'static str>,
+}
+
+fn run_plan(args: &CertifyArgs) -> Result<ExitCode> {
+    let r = args.resolve()?;
+    if args.mode() == Mode::IidEstimate {
+        bail!("--plan computes the entropy-accumulation figure only (the i.i.d. estimate needs the observed wins)");
+    }
+    let n = need(r.rounds, "rounds")?;
+    let gamma = need(r.gamma, "test-probability")?;
+    let delta = match (r.delta, args.completeness) {
+        (Some(d), _) => d,
+        (None, Some(eps_c)) => {
+            if !(eps_c > 0.0 && eps_c < 1.0) {
+                bail!("--completeness {eps_c}: must lie strictly between 0 and 1");
+            }
+            delta_for_completeness(n, gamma, eps_c)
+        }
+        (None, None) => bail!("--tolerance or --completeness is missing"),
+    };
+    let p = eat_params(&r, delta)?;
+    let res = eat_plan(&p)?;
+    let mut plot = None;
+    if let Some(path) = &args.plot {
+        draw_plot(path, &p, args.completeness)?;
+        plot = Some(path.display().to_string());
+    }
+    let report = PlanReport {
+        kind: "plan",
+        label: "planning figure: assumes the run passes the test; not a certificate",
+        parameters: p,
+        bits_per_round: res.bits as f64 / n as f64,
+        zero_reason: res.zero_reason.map(|z| z.text()),
+        result: res,
+        plot,
+        cautions: cautions(Mode::EntropyAccumulation).to_vec(),
+    };
+    if args.json {
+        print_json(&report)?;
+    } else {
+        let res = &report.result;
+        let mut o = std::io::stdout().lock();
+        writeln!(
+            o,
+            "plan (planning figure: assumes the run passes; not a certificate)"
+        )?;
+        writeln!(
+            o,
+            "  N_rounds {} , gamma {} , w_exp {} , delta {:.6e} , eps_s {:e} , eps_EA {:e}",
+            p.n_rounds, p.gamma, p.w_exp, p.delta, p.eps_s, p.eps_ea
+        )?;
+        writeln!(
+            o,
+            "  a passing run needs W >= {:.0} won test rounds (w_exp - delta = {:.6})",
+            res.threshold_wins.ceil(),
+            p.w_exp - p.delta
+        )?;
+        writeln!(
+            o,
+            "  certified smooth min-entropy: {} bits ({:.6} per round) of the {}-bit string a1 b1 .. aN bN, with W published ({} bits charged)",
+            res.bits, report.bits_per_round, res.extractor_input_bits, res.d_pub
+        )?;
+        if let Some(z) = report.zero_reason {
+            writeln!(o, "  0 bits: {z}")?;
+        }
+        if res.w_t > 0.0 {
+            writeln!(
+                o,
+                "  first-order term {:.1} bits, second-order term {:.1} bits, B = {:.2} bits; tangent point w_t = {:.9} (ceiling k = {})",
+                res.first_order_bits, res.second_order_bits, res.bound_bits, res.w_t, res.k
+            )?;
+        }
+        writeln!(
+            o,
+            "  completeness error: honest devices abort with probability at most {:.3e}",
+            res.eps_c
+        )?;
+        if let Some(pl) = &report.plot {
+            writeln!(o, "  plot written to {pl}")?;
+        }
+        print_cautions(&mut o, Mode::EntropyAccumulation)?;
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+fn print_cautions(o: &mut impl Write, mode: Mode) -> Result<()> {
+    writeln!(o, "cautions:")?;
+    for (i, c) in cautions(mode).iter().enumerate() {
+        let mut first = true;
+        for line in wrap(c, 72) {
+            if first {
+                writeln!(o, "  {}. {line}", i + 1)?;
+                first = false;
+            } else {
+                writeln!(o, "     {line}")?;
+            }
+        }
+    }
+    Ok(())
+}
+
+/// Splits `text` into lines of at most `width` characters at spaces.
+fn wrap(text: &str, width: usize) -> Vec<String> {
+    let mut lines = Vec::new();
+    let mut cur = String::new();
+    for word in text.split_whitespace() {
+        if !cur.is_empty() && cur.len() + 1 + word.len() > width {
+            lines.push(std::mem::take(&mut cur));
+        }
+        if !cur.is_empty() {
+            cur.push(' ');
+        }
+        cur.push_str(word);
+    }
+    if !cur.is_empty() {
+        lines.push(cur);
+    }
+    lines
+}
+
+/// Certified bits per round (planning, W published) at `n` rounds.
+fn plan_rate(p: &EatParams, n: u64, gamma: f64, eps_c: Option<f64>) -> f64 {
+    let delta = match eps_c {
+        Some(e) => delta_for_completeness(n, gamma, e),
+        None => p.delta,
+    };
+    let q = EatParams {
+        n_rounds: n,
+        gamma,
+        delta,
+        ..*p
+    };
+    if delta >= q.w_exp {
+        return 0.0;
+    }
+    eat_plan(&q)
+        .map(|r| r.bits as f64 / n as f64)
+        .unwrap_or(0.0)
+}
+
+fn neighbours(gamma: f64) -> (f64, f64) {
+    if gamma * 2.0 <= 1.0 {
+        (gamma / 2.0, gamma * 2.0)
+    } else if gamma < 1.0 {
+        (gamma / 2.0, 1.0)
+    } else {
+        (gamma / 4.0, gamma / 2.0)
+    }
+}
+
+fn draw_plot(path: &Path, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
+    use plotters::prelude::*;
+    let (lo, hi) = neighbours(p.gamma);
+    let mut gammas = [lo, p.gamma, hi];
+    gammas.sort_by(|a, b| a.partial_cmp(b).unwrap());
+    let ns: Vec<f64> = (0..=140)
+        .map(|i| 10f64.powf(5.0 + i as f64 * 0.05))
+        .collect();
+    let series: Vec<(f64, Vec<(f64, f64)>)> = gammas
+        .iter()
+        .map(|&g| {
+            (
+                g,
+                ns.iter()
+                    .map(|&n| (n, plan_rate(p, n.round() as u64, g, eps_c)))
+                    .collect(),
+            )
+        })
+        .collect();
+    let ymax = series
+        .iter()
+        .flat_map(|(_, s)| s.iter().map(|&(_, y)| y))
+        .fold(0.0f64, f64::max);
+    let ymax = (ymax * 1.1).clamp(0.05, 1.0);
+    let tmp = temp_path(path);
+    {
+        let root = SVGBackend::new(&tmp, (960, 600)).into_drawing_area();
+        root.fill(&WHITE).map_err(|e| anyhow!("plot: {e}"))?;
+        let delta_text = match eps_c {
+            Some(e) => format!("delta for completeness error {e:e}"),
+            None => format!("delta = {}", p.delta),
+        };
+        let mut chart = ChartBuilder::on(&root)
+            .caption(
+                format!(
+                    "certified bits per round if the run passes (W published); w_exp = {}, {delta_text}, eps_s = {:e}, eps_EA = {:e}",
+                    p.w_exp, p.eps_s, p.eps_ea
+                ),
+                ("sans-serif", 16),
+            )
+            .margin(16)
+            .x_label_area_size(48)
+            .y_label_area_size(64)
+            .build_cartesian_2d((1e5f64..1e12f64).log_scale(), 0f64..ymax)
+            .map_err(|e| anyhow!("plot: {e}"))?;
+        chart
+            .configure_mesh()
+            .x_desc("number of rounds N (log scale)")
+            .y_desc("certified bits per round")
+            .x_label_formatter(&|x| format!("1e{}", x.log10().round()))
+            .draw()
+            .map_err(|e| anyhow!("plot: {e}"))?;
+        let colours = [BLUE, RED, RGBColor(0, 140, 0)];
+        for (i, (g, pts)) in series.iter().enumerate() {
+            let c = colours[i % 3];
+            let label = if (*g - p.gamma).abs() < 1e-15 {
+                format!("gamma = {g} (given)")
+            } else {
+                format!("gamma = {g}")
+            };
+            chart
+                .draw_series(LineSeries::new(pts.iter().copied(), c.stroke_width(2)))
+                .map_err(|e| anyhow!("plot: {e}"))?
+                .label(label)
+                .legend(move |(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 20, y)], c.stroke_width(2))
+                });
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperLeft)
+            .background_style(WHITE.mix(0.8))
+            .border_style(BLACK)
+            .draw()
+            .map_err(|e| anyhow!("plot: {e}"))?;
+        root.present().map_err(|e| anyhow!("plot: {e}"))?;
+    }
+    std::fs::rename(&tmp, path)
+        .with_context(|| format!("cannot move the plot into place at {}", path.display()))?;
+    Ok(())
+}
+
+// ----------------------------------------------------------- certification
+
+/// A reader that hashes and counts the bytes passing through it.
+struct Tee<R> {
+    inner: R,
+    hasher: Rc<RefCell<blake3::Hasher>>,
+    count: Rc<RefCell<u64>>,
+}
+
+impl<R: Read> Read for Tee<R> {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        let n = self.inner.read(buf)?;
+        self.hasher.borrow_mut().update(&buf[..n]);
+        *self.count.borrow_mut() += n as u64;
+        Ok(n)
+    }
+}
+
+/// A writer that also feeds a data digest.
+struct DigestWriter<W> {
+    inner: W,
+    digest: DataDigest,
+}
+
+impl<W: Write> Write for DigestWriter<W> {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        let n = self.inner.write(buf)?;
+        self.digest.update(&buf[..n]);
+        Ok(n)
+    }
+    fn flush(&mut self) -> std::io::Result<()> {
+        self.inner.flush()
+    }
+}
+
+/// A sink that only digests.
+struct Discard;
+
+impl Write for Discard {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        Ok(buf.len())
+    }
+    fn flush(&mut self) -> std::io::Result<()> {
+        Ok(())
+    }
+}
+
+/// `DIR/.NAME.tmp-PID` next to `path`.
+fn temp_path(path: &Path) -> PathBuf {
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_else(|| "out".into());
+    path.with_file_name(format!(".{name}.tmp-{}", std::process::id()))
+}
+
+/// Creates a new file; owner-only permissions when `private`.
+fn create_file(path: &Path, private: bool) -> Result<File> {
+    let mut o = std::fs::OpenOptions::new();
+    o.write(true).create(true).truncate(true);
+    #[cfg(unix)]
+    if private {
+        use std::os::unix::fs::OpenOptionsExt;
+        o.mode(0o600);
+    }
+    #[cfg(not(unix))]
+    let _ = private;
+    o.open(path)
+        .with_context(|| format!("cannot create {}", path.display()))
+}
+
+/// What was read from the record.
+struct RecordRead {
+    summary: Summary,
+    info: RecordInfo,
+    raw_digest: Option<String>,
+    raw_tmp: Option<PathBuf>,
+}
+
+fn read_record(
+    path: &Path,
+    n_expected: u64,
+    gamma: f64,
+    raw_out: Option<&Path>,
+) -> Result<RecordRead> {
+    let hasher = Rc::new(RefCell::new(blake3::Hasher::new()));
+    let count = Rc::new(RefCell::new(0u64));
+    let (source, size): (Box<dyn Read>, Option<u64>) = if path.as_os_str() == "-" {
+        (Box::new(std::io::stdin()), None)
+    } else {
+        let f = File::open(path)
+            .with_context(|| format!("cannot open the record {}", path.display()))?;
+        let size = f.metadata().ok().map(|m| m.len());
+        (Box::new(f), size)
+    };
+    let tee = Tee {
+        inner: source,
+        hasher: hasher.clone(),
+        count: count.clone(),
+    };
+    let mut raw_in = BufReader::with_capacity(1 << 20, tee);
+    let compressed = raw_in
+        .fill_buf()
+        .map(|b| b.starts_with(&[0x1f, 0x8b]))
+        .unwrap_or(false);
+    let text: Box<dyn BufRead> = if compressed {
+        Box::new(BufReader::with_capacity(
+            1 << 20,
+            flate2::bufread::MultiGzDecoder::new(raw_in),
+        ))
+    } else {
+        Box::new(raw_in)
+    };
+    let mut reader = RecordReader::new(text);
+    let mut tally = Tally::new();
+    let mut pairs = Bits::new();
+
+    let raw_tmp = raw_out.map(temp_path);
+    let digest = DataDigest::new(2 * n_expected);
+    let sink: Box<dyn Write> = match &raw_tmp {
+        Some(t) => Box::new(std::io::BufWriter::with_capacity(
+            1 << 20,
+            create_file(t, true)?,
+        )),
+        None => Box::new(Discard),
+    };
+    let mut writer = BitWriter::new(
+        DigestWriter {
+            inner: sink,
+            digest,
+        },
+        Format::Packed,
+        BitOrder::Msb,
+    );
+
+    let pb = progress(size.unwrap_or(0), "reading rounds");
+    let result = (|| -> Result<()> {
+        loop {
+            let n = reader
+                .read_rounds(CHUNK_ROUNDS, &mut tally, Some(&mut pairs))
+                .map_err(|e| anyhow!("{}: {e}", path.display()))?;
+            if n == 0 {
+                break;
+            }
+            if tally.rounds() <= n_expected {
+                writer
+                    .write_bits(&pairs)
+                    .context("cannot write the raw output")?;
+            }
+            pb.set_position(*count.borrow());
+        }
+        Ok(())
+    })();
+    pb.finish_and_clear();
+    if let Err(e) = result {
+        if let Some(t) = &raw_tmp {
+            let _ = std::fs::remove_file(t);
+        }
+        return Err(e);
+    }
+    let rounds = tally.rounds();
+    if rounds != n_expected {
+        if let Some(t) = &raw_tmp {
+            let _ = std::fs::remove_file(t);
+        }
+        bail!(
+            "{}: the record holds {rounds} rounds, but N_rounds = {n_expected} was fixed before the run",
+            path.display()
+        );
+    }
+    let dw = writer.finish().context("cannot write the raw output")?;
+    let DigestWriter { mut inner, digest } = dw;
+    inner.flush().context("cannot write the raw output")?;
+    drop(inner);
+    let raw_digest = digest.finish_hex();
+    let summary = tally.summary(gamma)?;
+    let file_digest = hasher.borrow().finalize().to_hex().to_string();
+    let file_bytes = *count.borrow();
+    Ok(RecordRead {
+        summary,
+        info: RecordInfo {
+            form: "round-file".into(),
+            file_digest: Some(file_digest),
+            file_bytes: Some(file_bytes),
+            compressed,
+            rounds,
+            test_rounds: 0,
+        },
+        raw_digest: Some(raw_digest),
+        raw_tmp,
+    })
+}
+
+fn read_counts(path: &Path, gamma: f64) -> Result<Summary> {
+    let allowed = [&PARAM_KEYS[..], &COUNT_KEYS[..]].concat();
+    let (kv, _) = read_key_values(path, &allowed)?;
+    let mut vals = [None; 3];
+    for (k, v, line) in kv {
+        if let Some(i) = ["rounds", "test-rounds", "wins"]
+            .iter()
+            .position(|&x| x == k)
+        {
+            vals[i] = Some(parse_num::<u64>(path, line, &k, &v)?);
+        }
+    }
+    let get = |i: usize, name: &str| {
+        vals[i].ok_or_else(|| anyhow!("{}: the line {name} = ... is missing", path.display()))
+    };
+    let mut s = Summary::from_counts(get(0, "rounds")?, get(1, "test-rounds")?, get(2, "wins")?);
+    s.check_counts()
+        .map_err(|e| anyhow!("{}: {e}", path.display()))?;
+    s.add_warnings(gamma);
+    Ok(s)
+}
+
+fn digest_raw_file(path: &Path, nbits: u64) -> Result<String> {
+    let f = File::open(path)
+        .with_context(|| format!("cannot open the raw output file {}", path.display()))?;
+    let len = f.metadata()?.len();
+    if len != nbits.div_ceil(8) {
+        bail!(
+            "{}: {len} bytes, but the {nbits}-bit string a1 b1 .. aN bN of the counts needs {} bytes",
+            path.display(),
+            nbits.div_ceil(8)
+        );
+    }
+    let mut d = DataDigest::new(nbits);
+    let mut r = BufReader::with_capacity(1 << 20, f);
+    loop {
+        let buf = r.fill_buf()?;
+        if buf.is_empty() {
+            break;
+        }
+        d.update(buf);
+        let n = buf.len();
+        r.consume(n);
+    }
+    Ok(d.finish_hex())
+}
+
+#[derive(Serialize)]
+struct CertifyReport<'a> {
+    kind: &'static str,
+    accepted: bool,
+    mode: Mode,
+    setup: Setup,
+    labels: &'a [String],
+    min_entropy_bits: u64,
+    bits_per_round: f64,
+    zero_reason: Option<String>,
+    rounds: u64,
+    test_rounds: u64,
+    public_statistics: Vec<String>,
+    public_values: &'a PublicValues,
+    disclosure_charge_bits: u64,
+    result: &'a ResultTerms,
+    warnings: &'a [String],
+    parameters_file: Option<String>,
+    certificate_file: Option<String>,
+    raw_file: Option<String>,
+    cautions: Vec<&'static str>,
+}
+
+fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
+    let setup = args.setup()?;
+    let mode = args.mode();
+    let public = args.public()?;
+    let r = args.resolve()?;
+    let n = need(r.rounds, "rounds")?;
+    let gamma = need(r.gamma, "test-probability")?;
+    if !(gamma > 0.0 && gamma <= 1.0) {
+        bail!("--test-probability {gamma}: gamma must satisfy 0 < gamma <= 1");
+    }
+    if n == 0 {
+        bail!("--rounds 0: N_rounds must be at least 1");
+    }
+    // Validate the parameters before reading a large record.
+    let eat_p = match mode {
+        Mode::EntropyAccumulation => {
+            let p = eat_params(&r, need(r.delta, "tolerance")?)?;
+            p.validate()?;
+            Some(p)
+        }
+        Mode::IidEstimate => {
+            let e = need(r.eps_est, "estimation-error")?;
+            if !(e > 0.0 && e < 1.0) {
+                bail!("--estimation-error {e}: must lie strictly between 0 and 1");
+            }
+            None
+        }
+    };
+
+    let (summary, mut info, raw_digest, raw_tmp) = match (&args.record, &args.counts) {
+        (Some(path), _) => {
+            let rr = read_record(path, n, gamma, args.raw_out.as_deref())?;
+            (rr.summary, rr.info, rr.raw_digest, rr.raw_tmp)
+        }
+        (None, Some(path)) => {
+            let s = read_counts(path, gamma)?;
+            if s.n_rounds != n {
+                bail!(
+                    "{}: rounds = {}, but N_rounds = {n} was fixed before the run",
+                    path.display(),
+                    s.n_rounds
+                );
+            }
+            if public.iter().any(|p| *p != PublicStat::Wins) {
+                bail!("--public: with --counts only the win count is known, so only \"wins\" (or none) can be published");
+            }
+            let d = match &args.raw_in {
+                Some(raw) => Some(digest_raw_file(raw, 2 * n)?),
+                None => None,
+            };
+            let info = RecordInfo {
+                form: "counts".into(),
+                file_digest: Some(blake3::hash(&std::fs::read(path)?).to_hex().to_string()),
+                file_bytes: std::fs::metadata(path).ok().map(|m| m.len()),
+                compressed: false,
+                rounds: s.n_rounds,
+                test_rounds: s.n_test,
+            };
+            (s, info, d, None)
+        }
+        (None, None) => unreachable!(),
+    };
+    info.test_rounds = summary.n_test;
+    let cleanup = |t: &Option<PathBuf>| {
+        if let Some(t) = t {
+            let _ = std::fs::remove_file(t);
+        }
+    };
+
+    // The figure.
+    let (accepted, k, eps_s, eps_cert, eps_cert_source, d_pub, terms) = match mode {
+        Mode::EntropyAccumulation => {
+            let p = eat_p.unwrap();
+            let res = match eat_certify(&p, &summary, &public) {
+                Ok(r) => r,
+                Err(e) => {
+                    cleanup(&raw_tmp);
+                    return Err(e.into());
+                }
+            };
+            let terms = ResultTerms {
+                bound_bits: res.bound_bits,
+                first_order_bits: Some(res.first_order_bits),
+                second_order_bits: Some(res.second_order_bits),
+                tangent_point: (res.w_t > 0.0).then_some(res.w_t),
+                ceiling_k: (res.w_t > 0.0).then_some(res.k),
+                margin_bits: MARGIN_BITS,
+                completeness_error: Some(completeness(p.n_rounds, p.gamma, p.delta)),
+                win_lower_bound: None,
+                zero_reason: res.zero_reason.map(|z| z.text().to_string()),
+            };
+            (
+                res.accepted,
+                res.bits,
+                p.eps_s,
+                p.eps_ea,
+                "eps_EA",
+                res.d_pub,
+                terms,
+            )
+        }
+        Mode::IidEstimate => {
+            let eps_est = r.eps_est.unwrap();
+            let d_pub = sluice::certify::eat::disclosure_charge(&public, &summary);
+            let (bits, w_l) = match iid_estimate(n, summary.n_test, summary.wins, eps_est, d_pub) {
+                Ok(v) => v,
+                Err(e) => {
+                    cleanup(&raw_tmp);
+                    return Err(e.into());
+                }
+            };
+            let bound = bits + d_pub as f64;
+            let k = if bits > 0.0 { bits.floor() as u64 } else { 0 };
+            let zero = (k == 0).then(|| {
+                if bound <= 0.0 {
+                    "the lower confidence bound on the win probability does not exceed 3/4"
+                        .to_string()
+                } else {
+                    "the charge for published statistics exceeds the bound".to_string()
+                }
+            });
+            let terms = ResultTerms {
+                bound_bits: bound,
+                first_order_bits: None,
+                second_order_bits: None,
+                tangent_point: None,
+                ceiling_k: None,
+                margin_bits: 0.0,
+                completeness_error: None,
+                win_lower_bound: Some(w_l),
+                zero_reason: zero,
+            };
+            (true, k, 0.0, eps_est, "eps_est", d_pub, terms)
+        }
+    };
+
+    let mut labels = vec![setup.label().to_string()];
+    if mode == Mode::IidEstimate {
+        labels.push(IID_LABEL.to_string());
+    }
+    if args.record.is_none() {
+        labels.push(
+            "computed from counts supplied by the user; the round record itself was not checked"
+                .into(),
+        );
+    }
+    let public_values = PublicValues {
+        wins: public.contains(&PublicStat::Wins).then_some(summary.wins),
+        s_hat: if public.contains(&PublicStat::SHat) {
+            summary.s_hat
+        } else {
+            None
+        },
+        pair_counts: public
+            .iter()
+            .filter_map(|p| match *p {
+                PublicStat::PairCount(x, y) => Some([
+                    x as u64,
+                    y as u64,
+                    summary.pair_counts[x as usize][y as usize],
+                    summary.same_counts[x as usize][y as usize],
+                ]),
+                _ => None,
+            })
+            .collect(),
+    };
+
+    // Files: the raw output only on acceptance; the certificate always
+    // (an aborted run's certificate says 0 bits and "accepted": false).
+    let mut raw_file = None;
+    if let (Some(tmp), Some(dest)) = (&raw_tmp, &args.raw_out) {
+        if accepted {
+            std::fs::rename(tmp, dest).with_context(|| {
+                format!(
+                    "cannot move the raw output into place at {}",
+                    dest.display()
+                )
+            })?;
+            raw_file = Some(dest.display().to_string());
+        } else {
+            let _ = std::fs::remove_file(tmp);
+        }
+    }
+    let mut certificate_file = None;
+    if let Some(dest) = &args.output {
+        let Some(digest) = raw_digest.clone() else {
+            bail!("-o needs the digest of the raw output string: with --counts, give the raw output file with --raw-in");
+        };
+        let cert = Certificate {
+            schema: SCHEMA.into(),
+            mode,
+            setup,
+            device_independent: setup.device_independent(),
+            labels: labels.clone(),
+            accepted,
+            string: CertifiedString {
+                length_bits: 2 * n,
+                digest,
+                layout: PAIR_LAYOUT.into(),
+            },
+            min_entropy_bits: k,
+            eps_s,
+            eps_cert,
+            eps_cert_source: eps_cert_source.into(),
+            blocks: 1,
+            per_block_bounds: false,
+            public_statistics: public.clone(),
+            public_values: public_values.clone(),
+            disclosure_charge_bits: d_pub,
+            parameters: Parameters {
+                rounds: n,
+                test_probability: gamma,
+                expected_win: eat_p.map(|p| p.w_exp),
+                tolerance: eat_p.map(|p| p.delta),
+                smoothing: eat_p.map(|p| p.eps_s),
+                acceptance: eat_p.map(|p| p.eps_ea),
+                estimation_error: r.eps_est.filter(|_| mode == Mode::IidEstimate),
+                source: if r.from_file.is_some() {
+                    "file".into()
+                } else {
+                    "options".into()
+                },
+                file_digest: r.from_file.as_ref().map(|(_, d)| d.clone()),
+            },
+            record: info.clone(),
+            result: terms.clone(),
+            tool: format!("sluice {}", env!("CARGO_PKG_VERSION")),
+        };
+        cert.validate()
+            .map_err(|e| anyhow!("internal error, certificate does not validate: {e}"))?;
+        let tmp = temp_path(dest);
+        {
+            let mut f = create_file(&tmp, false)?;
+            f.write_all(cert.to_json_string().as_bytes())?;
+            f.write_all(b"\n")?;
+            f.sync_all()?;
+        }
+        std::fs::rename(&tmp, dest).with_context(|| {
+            format!(
+                "cannot move the certificate into place at {}",
+                dest.display()
+            )
+        })?;
+        certificate_file = Some(dest.display().to_string());
+    }
+
+    let report = CertifyReport {
+        kind: "certify",
+        accepted,
+        mode,
+        setup,
+        labels: &labels,
+        min_entropy_bits: k,
+        bits_per_round: k as f64 / n as f64,
+        zero_reason: terms.zero_reason.clone(),
+        rounds: n,
+        test_rounds: summary.n_test,
+        public_statistics: public.iter().map(|p| p.name()).collect(),
+        public_values: &public_values,
+        disclosure_charge_bits: d_pub,
+        result: &terms,
+        warnings: &summary.input_warnings,
+        parameters_file: r.from_file.as_ref().map(|(p, _)| p.display().to_string()),
+        certificate_file,
+        raw_file,
+        cautions: cautions(mode).to_vec(),
+    };
+    if args.json {
+        print_json(&report)?;
+    } else {
+        print_text(
+            &report,
+            eat_p.as_ref(),
+            &summary,
+            eps_s,
+            eps_cert,
+            eps_cert_source,
+        )?;
+    }
+    Ok(if accepted {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    })
+}
+
+fn print_text(
+    rep: &CertifyReport<'_>,
+    p: Option<&EatParams>,
+    s: &Summary,
+    eps_s: f64,
+    eps_cert: f64,
+    eps_cert_source: &str,
+) -> Result<()> {
+    let mut o = std::io::stdout().lock();
+    for l in rep.labels {
+        writeln!(o, "label: {l}")?;
+    }
+    match rep.mode {
+        Mode::EntropyAccumulation => writeln!(
+            o,
+            "model: entropy accumulation (devices may have memory; adversary with quantum side information)"
+        )?,
+        Mode::IidEstimate => writeln!(o, "model: {IID_LABEL}")?,
+    }
+    writeln!(
+        o,
+        "record: {} rounds, {} test rounds",
+        rep.rounds, rep.test_rounds
+    )?;
+    match rep.public_values.wins {
+        Some(w) => write!(o, "test: {w} won test rounds")?,
+        None => write!(o, "test: win count kept secret")?,
+    }
+    if let Some(p) = p {
+        writeln!(
+            o,
+            "; pass needs at least {:.0} (gamma N (w_exp - delta) = {:.2}) -> {}",
+            p.threshold_wins().ceil(),
+            p.threshold_wins(),
+            if rep.accepted {
+                "ACCEPT"
+            } else {
+                "ABORT: the protocol outputs nothing"
+            }
+        )?;
+    } else {
+        writeln!(o)?;
+    }
+    writeln!(
+        o,
+        "certified smooth min-entropy: {} bits ({:.6} per round) of the {}-bit string a1 b1 .. aN bN, as one block",
+        rep.min_entropy_bits,
+        rep.bits_per_round,
+        2 * rep.rounds
+    )?;
+    if let Some(z) = &rep.zero_reason {
+        writeln!(o, "  0 bits: {z}")?;
+    }
+    let t = rep.result;
+    if let (Some(f), Some(sec)) = (t.first_order_bits, t.second_order_bits) {
+        if t.tangent_point.is_some() {
+            writeln!(
+                o,
+                "  first-order term {f:.1} bits, second-order term {sec:.1} bits, B = {:.2} bits",
+                t.bound_bits
+            )?;
+        }
+    }
+    if let (Some(w), Some(k)) = (t.tangent_point, t.ceiling_k) {
+        writeln!(
+            o,
+            "  tangent point w_t = {w:.9} (ceiling k = {k}); rounding margin {} bit",
+            t.margin_bits
+        )?;
+    }
+    if let Some(w_l) = t.win_lower_bound {
+        writeln!(
+            o,
+            "  lower confidence bound on the win probability w_L = {w_l:.6}; bound {:.2} bits",
+            t.bound_bits
+        )?;
+    }
+    let names = if rep.public_statistics.is_empty() {
+        "none".to_string()
+    } else {
+        rep.public_statistics.join(", ")
+    };
+    writeln!(
+        o,
+        "  published statistics: {names} ({} bits charged)",
+        rep.disclosure_charge_bits
+    )?;
+    if let Some(sh) = rep.public_values.s_hat {
+        writeln!(o, "  S_hat (published) = {sh:.6}")?;
+    }
+    for pc in &rep.public_values.pair_counts {
+        writeln!(
+            o,
+            "  inputs ({}, {}) (published): {} test rounds, {} with a = b",
+            pc[0], pc[1], pc[2], pc[3]
+        )?;
+    }
+    if let Some(c) = t.completeness_error {
+        writeln!(
+            o,
+            "  completeness error: honest devices abort with probability at most {c:.3e}"
+        )?;
+    }
+    writeln!(
+        o,
+        "  for the extractor: n = {}, k = {}, eps_s = {eps_s:e}, eps_cert = {eps_cert:e} ({eps_cert_source}), one block",
+        2 * rep.rounds,
+        rep.min_entropy_bits
+    )?;
+    writeln!(
+        o,
+        "  meaning: eps_total bounds Pr[accept] times the distance from ideal output, not the distance given acceptance"
+    )?;
+    match &rep.parameters_file {
+        Some(f) => writeln!(o, "parameters: read from {f} (its digest is recorded in the certificate)")?,
+        None => writeln!(
+            o,
+            "parameters: given as options; they make a certificate only if they were fixed before the run (caution 6)"
+        )?,
+    }
+    if !s.has_pair_counts {
+        writeln!(
+            o,
+            "note: computed from counts; the rounds themselves were not checked"
+        )?;
+    }
+    for w in rep.warnings {
+        writeln!(o, "warning: {w}")?;
+    }
+    if let Some(c) = &rep.certificate_file {
+        writeln!(
+            o,
+            "certificate written to {c} (keep it private: it holds digests of the raw data)"
+        )?;
+    }
+    if let Some(r) = &rep.raw_file {
+        writeln!(
+            o,
+            "raw output written to {r} ({} bits, owner-only; secret)",
+            2 * rep.rounds
+        )?;
+    }
+    print_cautions(&mut o, rep.mode)?;
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn wrapping_keeps_every_word() {
+        let t = "one two three four five six seven eight nine ten eleven twelve";
+        let w = wrap(t, 15);
+        assert!(w.iter().all(|l| l.len() <= 15), "{w:?}");
+        assert_eq!(w.join(" "), t);
+    }
+
+    #[test]
+    fn neighbouring_gammas_stay_in_range() {
+        assert_eq!(neighbours(0.1), (0.05, 0.2));
+        assert_eq!(neighbours(0.6), (0.3, 1.0));
+        assert_eq!(neighbours(1.0), (0.25, 0.5));
+    }
+}
