@@ -24,6 +24,9 @@ struct Cli {
     command: Command,
 }
 
+// Option structs differ a lot in size; the value is parsed once, so the
+// size difference costs nothing.
+#[allow(clippy::large_enum_variant)]
 #[derive(Subcommand)]
 enum Command {
     /// Hash raw bits into near-uniform bits with a seeded extractor
