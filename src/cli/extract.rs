@@ -1,6 +1,7 @@
 //! `sluice extract` and `sluice verify` with an explicit seed file.
 
 use super::common::{self, FileFormatArgs, FormatArg};
+use super::plan::SecurityArgs;
 use anyhow::{bail, Context};
 use sluice::bits::Bits;
 use sluice::extract::{Engine, Extractor, ModifiedToeplitz, Toeplitz};
@@ -23,9 +24,9 @@ pub enum ExtractorArg {
 pub struct Common {
     /// Raw input file (`-` for standard input)
     pub input: PathBuf,
-    /// Which extractor to run
+    /// Which extractor to run (chosen by the planner when not given)
     #[arg(long, value_enum)]
-    pub extractor: ExtractorArg,
+    pub extractor: Option<ExtractorArg>,
     /// Seed file (packed bytes, MSB first, unless --seed-format says otherwise)
     #[arg(long = "seed-file", value_name = "SEED")]
     pub seed_file: PathBuf,
@@ -35,9 +36,10 @@ pub struct Common {
     /// Use the first bits of a seed file that holds more than needed
     #[arg(long = "allow-longer-seed")]
     pub allow_longer_seed: bool,
-    /// Output bits per block (m)
+    /// Output bits per block (m); without it, the planner sizes the output
+    /// from the security options
     #[arg(long = "output-bits", value_name = "M")]
-    pub output_bits: usize,
+    pub output_bits: Option<usize>,
     /// Use only the first N bits of the input
     #[arg(long = "input-bits", value_name = "N")]
     pub input_bits: Option<u64>,
@@ -67,6 +69,15 @@ pub struct ExtractArgs {
     /// and renamed when complete
     #[arg(short = 'o', long = "output", value_name = "OUT")]
     pub output: PathBuf,
+    #[command(flatten)]
+    pub security: SecurityArgs,
+    /// Where to write the receipt of an automatic run (default OUT.receipt.json)
+    #[arg(long, value_name = "FILE")]
+    pub receipt: Option<PathBuf>,
+    /// Put the output's digest in the receipt (the guarantee for the output
+    /// is then only computational once the receipt is published)
+    #[arg(long = "receipt-output-digest")]
+    pub receipt_output_digest: bool,
 }
 
 /// `sluice verify`
@@ -77,6 +88,9 @@ pub struct VerifyArgs {
     /// The claimed output to check (read with --output-format / --output-bit-order)
     #[arg(long, value_name = "FILE")]
     pub claimed: PathBuf,
+    /// Take the extractor, sizes and blocks from a receipt of `sluice extract`
+    #[arg(long, value_name = "FILE", conflicts_with_all = ["extractor", "output_bits", "block_bits", "input_bits"])]
+    pub receipt: Option<PathBuf>,
 }
 
 fn parse_engine(s: &str) -> Result<Engine, String> {
@@ -92,11 +106,41 @@ struct Resolved {
     source: Source,
 }
 
-fn resolve(c: &Common) -> anyhow::Result<Resolved> {
-    if c.input_bits == Some(0) {
+/// The extractor, its output size and the block layout of a run.
+pub struct Layout {
+    pub extractor: ExtractorArg,
+    pub m: usize,
+    pub block_bits: Option<usize>,
+    pub input_bits: Option<u64>,
+}
+
+impl Layout {
+    /// The layout given explicitly on the command line.
+    fn explicit(c: &Common) -> anyhow::Result<Layout> {
+        match (c.extractor, c.output_bits) {
+            (Some(extractor), Some(m)) => Ok(Layout {
+                extractor,
+                m,
+                block_bits: c.block_bits,
+                input_bits: c.input_bits,
+            }),
+            (None, Some(_)) => bail!(
+                "--output-bits needs --extractor (or leave both out and give the security inputs)"
+            ),
+            _ => bail!(
+                "give --extractor and --output-bits, or the security inputs \
+                 (--min-entropy, --min-entropy-rate or --certificate, and --target-error) \
+                 so the planner can choose"
+            ),
+        }
+    }
+}
+
+fn resolve(c: &Common, l: &Layout) -> anyhow::Result<Resolved> {
+    if l.input_bits == Some(0) {
         bail!("--input-bits 0: the input length must be at least 1 bit");
     }
-    if c.block_bits == Some(0) {
+    if l.block_bits == Some(0) {
         bail!("--block-bits 0: a block must hold at least 1 bit");
     }
     let input_file = c.files.input(&c.input);
@@ -105,7 +149,7 @@ fn resolve(c: &Common) -> anyhow::Result<Resolved> {
     if input_file.format == sluice::bits::Format::Packed && !input_file.is_std() {
         if let Ok(md) = std::fs::metadata(&c.input) {
             let have = md.len() * 8;
-            if let Some(want) = c.input_bits.or(c.block_bits.map(|b| b as u64)) {
+            if let Some(want) = l.input_bits.or(l.block_bits.map(|b| b as u64)) {
                 if want > have {
                     bail!(
                         "{}: {want} bits asked for, but the input ends after {have} bits",
@@ -116,7 +160,7 @@ fn resolve(c: &Common) -> anyhow::Result<Resolved> {
         }
     }
     // The block size n: given, or the whole (possibly truncated) input.
-    let (n, source) = match (c.block_bits, c.input_bits) {
+    let (n, source) = match (l.block_bits, l.input_bits) {
         (Some(b), Some(t)) if (b as u64) > t => {
             bail!("--block-bits {b} is larger than --input-bits {t}: no block would be hashed")
         }
@@ -140,11 +184,11 @@ fn resolve(c: &Common) -> anyhow::Result<Resolved> {
             )
         }
     };
-    let m = c.output_bits;
+    let m = l.m;
     if m == 0 {
         bail!("--output-bits 0: the output must hold at least 1 bit");
     }
-    let plan: Box<dyn Extractor> = match c.extractor {
+    let plan: Box<dyn Extractor> = match l.extractor {
         ExtractorArg::Toeplitz => {
             if m > n {
                 bail!("--output-bits {m} is larger than the input block of {n} bits: Toeplitz hashing needs m <= n");
@@ -195,6 +239,7 @@ struct ExtractJson<'a> {
     output_bits_per_block: usize,
     seed_bits: usize,
     output: &'a Path,
+    receipt: Option<&'a Path>,
     #[serde(flatten)]
     report: &'a Report,
 }
@@ -202,20 +247,52 @@ struct ExtractJson<'a> {
 /// Runs `sluice extract`.
 pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
     let c = &a.common;
-    let r = resolve(c)?;
+    let auto_mode = c.output_bits.is_none() && c.extractor.is_none() || a.security.any_given();
+    let (layout, auto) = if auto_mode {
+        let (l, p) = super::auto::plan_run(c, &a.security)?;
+        (l, Some(p))
+    } else {
+        (Layout::explicit(c)?, None)
+    };
+    let r = resolve(c, &layout)?;
     common::print_cautions(c.quiet);
+    if let Some(p) = &auto {
+        p.print_summary(c.quiet);
+    }
     let output = c.files.output(&a.output);
-    let total = c.input_bits.unwrap_or(0);
+    let total = layout.input_bits.unwrap_or(0);
     let pb = common::progress(total, "extracting");
     let run = Run {
         input: r.source,
-        input_bits: c.input_bits,
+        input_bits: layout.input_bits,
         extractor: r.plan.as_ref(),
         seed: &r.seed,
         output,
     };
     let report = run.execute(|done| pb.set_position(done))?;
     pb.finish_and_clear();
+    let mut receipt_path = None;
+    if let Some(p) = &auto {
+        let path = match (&a.receipt, a.output.as_os_str() == "-") {
+            (Some(r), _) => r.clone(),
+            (None, false) => {
+                let mut s = a.output.clone().into_os_string();
+                s.push(".receipt.json");
+                PathBuf::from(s)
+            }
+            (None, true) => {
+                bail!("the output went to standard output: give --receipt FILE for the receipt")
+            }
+        };
+        let out_digest = if a.receipt_output_digest && a.output.as_os_str() != "-" {
+            let f = c.files.output(&a.output);
+            Some(pipeline::digest_prefix(&f, report.output_bits)?)
+        } else {
+            None
+        };
+        p.write_receipt(&path, r.plan.as_ref(), &report, c, out_digest)?;
+        receipt_path = Some(path);
+    }
     if c.json {
         let j = ExtractJson {
             extractor: r.plan.name(),
@@ -224,6 +301,7 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
             output_bits_per_block: r.plan.output_bits(),
             seed_bits: r.plan.seed_bits(),
             output: &a.output,
+            receipt: receipt_path.as_deref(),
             report: &report,
         };
         if a.output.as_os_str() == "-" {
@@ -237,6 +315,13 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
         if a.output.as_os_str() != "-" {
             writeln!(err, "wrote {} (owner-only permissions)", a.output.display())?;
         }
+        if let Some(p) = &receipt_path {
+            writeln!(
+                err,
+                "wrote {} (private: it holds a digest of the raw input)",
+                p.display()
+            )?;
+        }
     }
     Ok(ExitCode::SUCCESS)
 }
@@ -244,12 +329,30 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
 /// Runs `sluice verify`: exit 0 on match, 1 on mismatch, 2 on bad usage.
 pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
     let c = &a.common;
-    let r = resolve(c)?;
+    let layout = match &a.receipt {
+        Some(path) => {
+            let (l, digest) = super::auto::layout_from_receipt(path)?;
+            let f = c.files.input(&c.input);
+            let total = l.input_bits.expect("receipts give the input length");
+            let got = pipeline::digest_prefix(&f, total)?;
+            if got != digest {
+                println!(
+                    "MISMATCH: {} is not the input {} was made from (its data digest differs)",
+                    c.input.display(),
+                    path.display()
+                );
+                return Ok(ExitCode::from(1));
+            }
+            l
+        }
+        None => Layout::explicit(c)?,
+    };
+    let r = resolve(c, &layout)?;
     let claimed = c.files.output(&a.claimed);
-    let pb = common::progress(c.input_bits.unwrap_or(0), "verifying");
+    let pb = common::progress(layout.input_bits.unwrap_or(0), "verifying");
     let run = Run {
         input: r.source,
-        input_bits: c.input_bits,
+        input_bits: layout.input_bits,
         extractor: r.plan.as_ref(),
         seed: &r.seed,
         output: claimed.clone(),

@@ -5,6 +5,7 @@
 //! counts as success; `--json` prints one JSON document on standard output
 //! for scripts; progress bars appear only on a terminal.
 
+mod auto;
 mod bench;
 mod certify;
 mod common;

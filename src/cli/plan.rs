@@ -19,36 +19,11 @@ use std::time::Duration;
 /// Compare the extractors for your security inputs and pick one.
 #[derive(clap::Args)]
 pub struct PlanArgs {
-    /// Length of each raw block, in bits.
-    #[arg(long, value_name = "N")]
-    input_bits: u64,
-    /// Certified smooth min-entropy of each block, in bits.
-    ///
-    /// With several blocks, the bound must hold for each block given all
-    /// earlier blocks (in an order fixed in advance) and the adversary.
-    #[arg(long, value_name = "K", required_unless_present = "min_entropy_rate")]
-    min_entropy: Option<f64>,
-    /// Certified smooth min-entropy per raw bit (0 to 1).
-    #[arg(long, value_name = "R", conflicts_with = "min_entropy")]
-    min_entropy_rate: Option<f64>,
-    /// Smoothing parameter of the min-entropy figure.
-    #[arg(long, value_name = "EPS_S", default_value_t = 0.0)]
-    smoothing: f64,
-    /// Failure term of the certification (once per certificate).
-    #[arg(long, value_name = "EPS_C", default_value_t = 0.0)]
-    cert_error: f64,
-    /// Total error allowed for everything produced with the seed.
-    #[arg(long, value_name = "EPS")]
-    target_error: f64,
-    /// Number of blocks hashed with the one seed.
-    #[arg(long, value_name = "L", default_value_t = 1)]
-    blocks: u64,
-    /// Seed deficiency in bits: the seed's min-entropy is its length minus S.
-    #[arg(long, value_name = "S", default_value_t = 0.0)]
-    seed_deficiency: f64,
-    /// What to optimise.
-    #[arg(long, value_enum, default_value_t = ObjectiveArg::MostOutput)]
-    objective: ObjectiveArg,
+    /// Length of each raw block, in bits (taken from --certificate if given).
+    #[arg(long, value_name = "N", required_unless_present = "certificate")]
+    input_bits: Option<u64>,
+    #[command(flatten)]
+    security: SecurityArgs,
     /// Print one JSON document instead of the table.
     #[arg(long)]
     json: bool,
@@ -57,8 +32,167 @@ pub struct PlanArgs {
     quiet: bool,
 }
 
-#[derive(Clone, Copy, clap::ValueEnum)]
-enum ObjectiveArg {
+/// The security inputs shared by `sluice plan` and `sluice extract`.
+#[derive(clap::Args, Debug, Clone)]
+pub struct SecurityArgs {
+    /// Certified smooth min-entropy of each block, in bits.
+    ///
+    /// With several blocks, the bound must hold for each block given all
+    /// earlier blocks (in an order fixed in advance) and the adversary.
+    #[arg(long, value_name = "K", conflicts_with_all = ["min_entropy_rate", "certificate"])]
+    pub min_entropy: Option<f64>,
+    /// Certified smooth min-entropy per raw bit (0 to 1).
+    #[arg(long, value_name = "R", conflicts_with = "certificate")]
+    pub min_entropy_rate: Option<f64>,
+    /// Take n, the min-entropy, the smoothing and the certification error
+    /// from a certificate written by `sluice certify`.
+    #[arg(long, value_name = "FILE")]
+    pub certificate: Option<PathBuf>,
+    /// Smoothing parameter of the min-entropy figure.
+    #[arg(long, value_name = "EPS_S", conflicts_with = "certificate")]
+    pub smoothing: Option<f64>,
+    /// Failure term of the certification (once per certificate).
+    #[arg(long, value_name = "EPS_C", conflicts_with = "certificate")]
+    pub cert_error: Option<f64>,
+    /// Total error allowed for everything produced with the seed.
+    #[arg(long, value_name = "EPS")]
+    pub target_error: Option<f64>,
+    /// Number of blocks hashed with the one seed.
+    #[arg(long, value_name = "L")]
+    pub blocks: Option<u64>,
+    /// Seed deficiency in bits: the seed's min-entropy is its length minus S.
+    #[arg(long, value_name = "S", default_value_t = 0.0)]
+    pub seed_deficiency: f64,
+    /// What to optimise.
+    #[arg(long, value_enum, default_value_t = ObjectiveArg::MostOutput)]
+    pub objective: ObjectiveArg,
+}
+
+/// The selector's inputs, and the certificate they came from (if any).
+pub struct Resolved {
+    /// The inputs.
+    pub input: SelectorInput,
+    /// Whether the min-entropy was given as a rate (for error messages).
+    pub rate_given: bool,
+    /// The certificate, when the figures came from one.
+    pub certificate: Option<(PathBuf, sluice::certify::certificate::Certificate, String)>,
+}
+
+impl SecurityArgs {
+    /// Whether any figure that the selector needs was given.
+    pub fn any_given(&self) -> bool {
+        self.min_entropy.is_some()
+            || self.min_entropy_rate.is_some()
+            || self.certificate.is_some()
+            || self.target_error.is_some()
+    }
+
+    /// Builds the selector input for blocks of `n` bits (`None`: from the
+    /// certificate) and `blocks` blocks (when --blocks is not given).
+    pub fn resolve(&self, n: Option<u64>, blocks: u64) -> anyhow::Result<Resolved> {
+        let Some(target) = self.target_error else {
+            anyhow::bail!("--target-error: give the total error allowed (for example 1e-9)");
+        };
+        let blocks = self.blocks.unwrap_or(blocks);
+        if let Some(path) = &self.certificate {
+            let text = std::fs::read_to_string(path)
+                .with_context(|| format!("{}: cannot read the certificate", path.display()))?;
+            let cert = sluice::certify::certificate::Certificate::from_json_str(&text)
+                .with_context(|| format!("{}", path.display()))?;
+            let ei = cert
+                .extractor_input()
+                .with_context(|| format!("{}", path.display()))?;
+            if let Some(n) = n {
+                if n != ei.n {
+                    anyhow::bail!(
+                        "{}: the certificate covers one string of {} bits as one block; \
+                         the input here is {n} bits per block",
+                        path.display(),
+                        ei.n
+                    );
+                }
+            }
+            let digest = blake3::hash(text.as_bytes()).to_hex().to_string();
+            let input = SelectorInput {
+                n: ei.n,
+                k: ei.k as f64,
+                scope: if cert.per_block_bounds {
+                    EntropyScope::PerBlock
+                } else {
+                    EntropyScope::WholeString
+                },
+                can_abort: Some(true),
+                budget: Budget {
+                    eps_total: target,
+                    eps_cert: ei.eps_cert,
+                    eps_seed: 0.0,
+                    blocks,
+                    eps_s: ei.eps_s,
+                    seed_deficiency: self.seed_deficiency,
+                },
+                objective: self.objective.into(),
+            };
+            input.validate().map_err(|e| plan_error(e, false))?;
+            return Ok(Resolved {
+                input,
+                rate_given: false,
+                certificate: Some((path.clone(), cert, digest)),
+            });
+        }
+        let n = n.ok_or_else(|| anyhow::anyhow!("--input-bits: give the block length in bits"))?;
+        let k = match (self.min_entropy, self.min_entropy_rate) {
+            (Some(k), _) => k,
+            (None, Some(r)) => {
+                if !(0.0..=1.0).contains(&r) {
+                    anyhow::bail!(
+                        "--min-entropy-rate: {r} is not a rate; it must lie between 0 and 1 \
+                         (bits of min-entropy per raw bit)"
+                    );
+                }
+                r * n as f64
+            }
+            (None, None) => {
+                anyhow::bail!("give --min-entropy, --min-entropy-rate or --certificate")
+            }
+        };
+        let input = SelectorInput {
+            n,
+            k,
+            scope: EntropyScope::PerBlock,
+            can_abort: None,
+            budget: Budget {
+                eps_total: target,
+                eps_cert: self.cert_error.unwrap_or(0.0),
+                eps_seed: 0.0,
+                blocks,
+                eps_s: self.smoothing.unwrap_or(0.0),
+                seed_deficiency: self.seed_deficiency,
+            },
+            objective: self.objective.into(),
+        };
+        let rate_given = self.min_entropy.is_none();
+        input.validate().map_err(|e| plan_error(e, rate_given))?;
+        Ok(Resolved {
+            input,
+            rate_given,
+            certificate: None,
+        })
+    }
+}
+
+impl From<ObjectiveArg> for Objective {
+    fn from(o: ObjectiveArg) -> Objective {
+        match o {
+            ObjectiveArg::MostOutput => Objective::MostOutput,
+            ObjectiveArg::ShortestSeed => Objective::ShortestSeed,
+            ObjectiveArg::Fastest => Objective::Fastest,
+        }
+    }
+}
+
+/// Objective names on the command line.
+#[derive(Clone, Copy, Debug, clap::ValueEnum)]
+pub enum ObjectiveArg {
     /// The most output bits.
     MostOutput,
     /// The shortest seed.
@@ -92,7 +226,7 @@ fn option_for(field: &str) -> &'static str {
     }
 }
 
-fn plan_error(e: sluice::plan::Error, rate_given: bool) -> anyhow::Error {
+pub fn plan_error(e: sluice::plan::Error, rate_given: bool) -> anyhow::Error {
     let option = match e.field() {
         "k" if rate_given => "--min-entropy-rate",
         f => option_for(f),
@@ -110,40 +244,9 @@ fn ratio_cell(x: f64) -> String {
 }
 
 pub fn run(args: PlanArgs) -> anyhow::Result<ExitCode> {
-    let k = match (args.min_entropy, args.min_entropy_rate) {
-        (Some(k), _) => k,
-        (None, Some(r)) => {
-            if !(0.0..=1.0).contains(&r) {
-                anyhow::bail!(
-                    "--min-entropy-rate: {r} is not a rate; it must lie between 0 and 1 \
-                     (bits of min-entropy per raw bit)"
-                );
-            }
-            r * args.input_bits as f64
-        }
-        (None, None) => anyhow::bail!("give --min-entropy or --min-entropy-rate"),
-    };
-    let input = SelectorInput {
-        n: args.input_bits,
-        k,
-        scope: EntropyScope::PerBlock,
-        can_abort: None,
-        budget: Budget {
-            eps_total: args.target_error,
-            eps_cert: args.cert_error,
-            eps_seed: 0.0,
-            blocks: args.blocks,
-            eps_s: args.smoothing,
-            seed_deficiency: args.seed_deficiency,
-        },
-        objective: match args.objective {
-            ObjectiveArg::MostOutput => Objective::MostOutput,
-            ObjectiveArg::ShortestSeed => Objective::ShortestSeed,
-            ObjectiveArg::Fastest => Objective::Fastest,
-        },
-    };
-    let rate_given = args.min_entropy.is_none();
-    input.validate().map_err(|e| plan_error(e, rate_given))?;
+    let resolved = args.security.resolve(args.input_bits, 1)?;
+    let input = resolved.input;
+    let rate_given = resolved.rate_given;
     let speeds = speed_model();
     let sel = select::select(&input, &speeds).map_err(|e| plan_error(e, rate_given))?;
     if args.json {
@@ -376,7 +479,7 @@ fn cache_path() -> Option<PathBuf> {
 /// The speed model: from the cache when it matches this build and machine,
 /// else measured now (a few milliseconds per unit) and cached. A cache that
 /// cannot be read or written is not an error: the model is measured again.
-fn speed_model() -> Calibration {
+pub fn speed_model() -> Calibration {
     let key = cache_key();
     let path = cache_path();
     if let Some(p) = &path {

@@ -8,6 +8,7 @@
 //! or logged here.
 
 pub mod atomic;
+pub mod receipt;
 
 use crate::bits::io::{open_input, BitWriter, BlockReader};
 use crate::bits::{BitOrder, Bits, Error as BitsError, ErrorKind as BitsErrorKind, Format};
@@ -393,4 +394,72 @@ pub enum SeedFileError {
         /// Bits needed.
         needed: usize,
     },
+}
+
+/// Number of bits in a file: from the size for a packed regular file, else
+/// by decoding it once (standard input cannot be counted this way).
+pub fn count_bits(f: &BitFile) -> Result<u64, BitsError> {
+    if f.is_std() {
+        return Err(BitsError::from(io::Error::new(
+            io::ErrorKind::InvalidInput,
+            "standard input cannot be measured in advance; give --input-bits",
+        ))
+        .in_file(&f.path));
+    }
+    if f.format == Format::Packed {
+        let md = std::fs::metadata(&f.path).map_err(|e| BitsError::from(e).in_file(&f.path))?;
+        return Ok(md.len() * 8);
+    }
+    let mut r = BlockReader::new(open_input(&f.path)?, &f.path, f.format, f.order);
+    let mut chunk = Bits::zeros(1 << 20);
+    let mut total = 0u64;
+    while r.next_block(&mut chunk)? {
+        total += chunk.len() as u64;
+    }
+    Ok(total + r.remainder_bits() as u64)
+}
+
+/// Feeds packed bytes into a data digest.
+struct DigestSink(crate::bits::digest::DataDigest);
+
+impl Write for DigestSink {
+    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
+        self.0.update(buf);
+        Ok(buf.len())
+    }
+    fn flush(&mut self) -> io::Result<()> {
+        Ok(())
+    }
+}
+
+/// The data digest (`spec/conventions.md`) of the first `nbits` bits of a
+/// file, streamed; fails if the file holds fewer bits.
+pub fn digest_prefix(f: &BitFile, nbits: u64) -> Result<String, BitsError> {
+    let mut r = BlockReader::new(open_input(&f.path)?, &f.path, f.format, f.order);
+    let mut w = BitWriter::new(
+        DigestSink(crate::bits::digest::DataDigest::new(nbits)),
+        Format::Packed,
+        BitOrder::Msb,
+    );
+    let chunk_bits = 1usize << 20;
+    let mut left = nbits;
+    let mut chunk = Bits::zeros(chunk_bits);
+    while left > 0 {
+        let take = left.min(chunk_bits as u64) as usize;
+        if chunk.len() != take {
+            chunk = Bits::zeros(take);
+        }
+        if !r.next_block(&mut chunk)? {
+            return Err(BitsError::new(BitsErrorKind::TooShort {
+                wanted: nbits,
+                available: r.bits_available(),
+            })
+            .at_offset(r.bytes_read())
+            .in_file(&f.path));
+        }
+        w.write_bits(&chunk)?;
+        left -= take as u64;
+    }
+    let sink = w.finish()?;
+    Ok(sink.0.finish_hex())
 }

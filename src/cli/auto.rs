@@ -1,0 +1,353 @@
+//! Automatic extraction: size the output from the security inputs with the
+//! planner, check a certificate against the raw file, and write a receipt.
+
+use super::extract::{Common, ExtractorArg, Layout};
+use super::plan::{plan_error, speed_model, SecurityArgs};
+use anyhow::{bail, Context};
+use sluice::extract::Extractor;
+use sluice::pipeline::atomic::AtomicFile;
+use sluice::pipeline::receipt::{self, Receipt};
+use sluice::pipeline::{self, Report};
+use sluice::plan::compose;
+use sluice::plan::lhl::Family;
+use sluice::plan::round::up4;
+use sluice::plan::select::{self, Construction, NoSpeeds, Objective, Planned, SelectorInput};
+use std::collections::BTreeMap;
+use std::io::Write;
+use std::path::{Path, PathBuf};
+
+/// What the planner decided for a run.
+pub struct AutoPlan {
+    construction: Construction,
+    reason: String,
+    planned: Planned,
+    input: SelectorInput,
+    certificate: Option<(PathBuf, sluice::certify::certificate::Certificate, String)>,
+    input_digest: String,
+    total_bits: u64,
+}
+
+/// The constructions `sluice extract` can run.
+fn runnable(c: &Construction) -> Option<ExtractorArg> {
+    match c {
+        Construction::Hash {
+            family: Family::Toeplitz,
+        } => Some(ExtractorArg::Toeplitz),
+        Construction::Hash {
+            family: Family::ModifiedToeplitz,
+        } => Some(ExtractorArg::ModifiedToeplitz),
+        Construction::Trevisan { .. } => None,
+    }
+}
+
+fn construction_of(e: ExtractorArg) -> Construction {
+    Construction::Hash {
+        family: match e {
+            ExtractorArg::Toeplitz => Family::Toeplitz,
+            ExtractorArg::ModifiedToeplitz => Family::ModifiedToeplitz,
+        },
+    }
+}
+
+/// Sizes a run: the block layout, then the planner's choice among the
+/// constructions this command runs (or the one `--extractor` names).
+pub fn plan_run(c: &Common, sec: &SecurityArgs) -> anyhow::Result<(Layout, AutoPlan)> {
+    if c.output_bits.is_some() {
+        bail!("--output-bits and the security inputs exclude each other: give one or the other");
+    }
+    let file = c.files.input(&c.input);
+    if file.is_std() {
+        bail!("automatic extraction digests the input before hashing it, so it needs a file, not standard input");
+    }
+    let available = pipeline::count_bits(&file)?;
+    // The certificate fixes the string: its length, one block.
+    let cert_n = match &sec.certificate {
+        Some(p) => {
+            let text = std::fs::read_to_string(p)
+                .with_context(|| format!("{}: cannot read the certificate", p.display()))?;
+            let cert = sluice::certify::certificate::Certificate::from_json_str(&text)
+                .with_context(|| format!("{}", p.display()))?;
+            Some(cert.string.length_bits)
+        }
+        None => None,
+    };
+    let total = match (cert_n, c.input_bits) {
+        (Some(n), Some(t)) if t != n => {
+            bail!("--input-bits {t}: the certificate covers exactly {n} bits")
+        }
+        (Some(n), _) => n,
+        (None, Some(t)) => t,
+        (None, None) => available,
+    };
+    if total > available {
+        bail!(
+            "{}: {total} bits asked for, but the input ends after {available} bits",
+            c.input.display()
+        );
+    }
+    let n = match (cert_n, c.block_bits) {
+        (Some(n), Some(b)) if b as u64 != n => bail!(
+            "--block-bits {b}: a certificate covers its string as one block of {n} bits; it gives no per-block bounds, so the string cannot be split"
+        ),
+        (_, Some(b)) => b as u64,
+        (_, None) => total,
+    };
+    if n == 0 || total == 0 {
+        bail!("{}: the input holds no bits", c.input.display());
+    }
+    let blocks = total / n;
+    if blocks == 0 {
+        bail!("--block-bits {n} is larger than the {total} input bits: no block would be hashed");
+    }
+    let resolved = sec.resolve(Some(n), blocks)?;
+    let input = resolved.input;
+    let speeds;
+    let model: &dyn select::ThroughputModel = if input.objective == Objective::Fastest {
+        speeds = speed_model();
+        &speeds
+    } else {
+        &NoSpeeds
+    };
+    let (construction, planned, reason) = match c.extractor {
+        Some(e) => {
+            let cons = construction_of(e);
+            let p = select::plan_one(&cons, &input, model)
+                .map_err(|e| plan_error(e, resolved.rate_given))?;
+            (cons, p, "named with --extractor".to_string())
+        }
+        None => {
+            let sel =
+                select::select(&input, model).map_err(|e| plan_error(e, resolved.rate_given))?;
+            pick(&sel, input.objective)?
+        }
+    };
+    let extractor = runnable(&construction).expect("only runnable constructions are picked");
+    // Digest the input first; with a certificate it must be the certified string.
+    let input_digest = pipeline::digest_prefix(&file, total)?;
+    if let Some((path, cert, _)) = &resolved.certificate {
+        if cert.string.digest != input_digest {
+            bail!(
+                "{}: this is not the string {} certifies (the data digest of its first {total} bits differs); nothing was extracted",
+                c.input.display(),
+                path.display()
+            );
+        }
+    }
+    let layout = Layout {
+        extractor,
+        m: usize::try_from(planned.m)?,
+        block_bits: Some(usize::try_from(n)?),
+        input_bits: Some(total),
+    };
+    Ok((
+        layout,
+        AutoPlan {
+            construction,
+            reason,
+            planned,
+            input,
+            certificate: resolved.certificate,
+            input_digest,
+            total_bits: total,
+        },
+    ))
+}
+
+/// The selector's choice if this command runs it, else the best runnable row
+/// for the same objective.
+fn pick(
+    sel: &select::Selection,
+    objective: Objective,
+) -> anyhow::Result<(Construction, Planned, String)> {
+    if let Some(i) = sel.chosen {
+        let row = &sel.rows[i];
+        if runnable(&row.construction).is_some() {
+            let p = row.outcome.clone().expect("the chosen row is planned");
+            return Ok((row.construction, p, sel.reason.clone()));
+        }
+    }
+    let candidates = sel
+        .rows
+        .iter()
+        .filter(|r| runnable(&r.construction).is_some())
+        .filter_map(|r| r.outcome.as_ref().ok().map(|p| (r.construction, p.clone())));
+    let best = match objective {
+        Objective::MostOutput => {
+            candidates.max_by(|a, b| a.1.m.cmp(&b.1.m).then(b.1.d.cmp(&a.1.d)))
+        }
+        Objective::ShortestSeed => {
+            candidates.min_by(|a, b| a.1.d.cmp(&b.1.d).then(b.1.m.cmp(&a.1.m)))
+        }
+        Objective::Fastest => candidates.min_by(|a, b| {
+            a.1.seconds_per_block
+                .unwrap_or(f64::INFINITY)
+                .total_cmp(&b.1.seconds_per_block.unwrap_or(f64::INFINITY))
+        }),
+    };
+    match best {
+        Some((c, p)) => {
+            let why = match sel.chosen {
+                Some(i) => format!(
+                    "the planner preferred {}, which this command does not run yet; this is the best of the hashing extractors for the same objective",
+                    sel.rows[i].construction.name()
+                ),
+                None => sel.reason.clone(),
+            };
+            Ok((c, p, why))
+        }
+        None => bail!("no extractor meets the error target: {}", sel.reason),
+    }
+}
+
+impl AutoPlan {
+    /// Prints the choice and the error terms on standard error.
+    pub fn print_summary(&self, quiet: bool) {
+        let b = &self.input.budget;
+        let p = &self.planned;
+        let mut e = std::io::stderr().lock();
+        let _ = writeln!(e, "chosen: {}: {}", self.construction.name(), self.reason);
+        let _ = writeln!(
+            e,
+            "  {} block(s) of {} bits -> {} bits each; seed {} bits",
+            b.blocks, self.input.n, p.m, p.d
+        );
+        let _ = writeln!(
+            e,
+            "  eps_total = eps_cert + eps_seed + L (2 eps_s + 2^s eps_ext) = {:e} + {:e} + {} x (2 x {:e} + 2^{} x {}) = {} (target {:e})",
+            b.eps_cert,
+            b.eps_seed,
+            b.blocks,
+            b.eps_s,
+            b.seed_deficiency,
+            up4(p.eps_ext),
+            up4(p.eps_total),
+            b.eps_total
+        );
+        if let Some((path, cert, _)) = &self.certificate {
+            let _ = writeln!(
+                e,
+                "  certificate {}: setup: {}",
+                path.display(),
+                cert.setup.label()
+            );
+            if !cert.device_independent {
+                let _ = writeln!(e, "  NOT device-independent");
+            }
+        }
+        if !quiet {
+            let _ = writeln!(
+                e,
+                "  meaning: {}",
+                compose::meaning(self.input.can_abort.unwrap_or(false))
+            );
+        }
+    }
+
+    /// Writes the receipt (owner-only, atomically).
+    pub fn write_receipt(
+        &self,
+        path: &Path,
+        plan: &dyn Extractor,
+        report: &Report,
+        c: &Common,
+        output_digest: Option<String>,
+    ) -> anyhow::Result<()> {
+        let b = &self.input.budget;
+        let mut notes = vec![
+            "Private: this receipt holds a digest of the raw input; keep it with the ledger, not in public.".to_string(),
+        ];
+        if output_digest.is_some() {
+            notes.push(
+                "The output digest is included on request: once it is published, only a computational guarantee is left for the output."
+                    .to_string(),
+            );
+        }
+        let r = Receipt {
+            schema: receipt::SCHEMA.to_string(),
+            tool: format!("sluice {}", env!("CARGO_PKG_VERSION")),
+            construction: receipt::Construction {
+                extractor: plan.name().to_string(),
+                input_bits: plan.input_bits() as u64,
+                output_bits: plan.output_bits() as u64,
+                seed_bits: plan.seed_bits() as u64,
+                params: BTreeMap::new(),
+                reason: self.reason.clone(),
+            },
+            blocks: receipt::Blocks {
+                count: report.blocks,
+                input_bits_total: self.total_bits,
+                trailing_bits_unused: report.trailing_bits_unused,
+                order: "file order".to_string(),
+            },
+            input: receipt::InputRecord {
+                digest: self.input_digest.clone(),
+                format: format!("{:?}", c.files.format).to_lowercase(),
+                bit_order: format!("{:?}", c.files.bit_order).to_lowercase(),
+            },
+            seed: receipt::SeedRecord {
+                id: None,
+                bits: plan.seed_bits() as u64,
+                source: "explicit seed file (not registered in a ledger)".to_string(),
+                deficiency: b.seed_deficiency,
+            },
+            certificate: self.certificate.as_ref().map(|(_, cert, digest)| {
+                receipt::CertificateRecord {
+                    file_digest: digest.clone(),
+                    setup: cert.setup.label().to_string(),
+                    device_independent: cert.device_independent,
+                }
+            }),
+            errors: receipt::Errors {
+                formula: "eps_cert + eps_seed + L (2 eps_s + 2^s eps_ext)".to_string(),
+                eps_cert: b.eps_cert,
+                eps_seed: b.eps_seed,
+                eps_s: b.eps_s,
+                eps_ext: self.planned.eps_ext,
+                seed_deficiency: b.seed_deficiency,
+                blocks: b.blocks,
+                eps_total: self.planned.eps_total,
+                eps_total_rounded_up: up4(self.planned.eps_total),
+                target: b.eps_total,
+                form: "conservative".to_string(),
+            },
+            meaning: compose::meaning(self.input.can_abort.unwrap_or(false)).to_string(),
+            assumed: select::assumed_conditions(&self.input)
+                .into_iter()
+                .map(String::from)
+                .collect(),
+            output_digest,
+            notes,
+        };
+        let mut f = AtomicFile::create(path, true)?;
+        serde_json::to_writer_pretty(&mut f, &r)?;
+        f.write_all(b"\n")?;
+        f.commit()
+            .with_context(|| format!("{}: cannot write the receipt", path.display()))?;
+        Ok(())
+    }
+}
+
+/// The layout a receipt records, and the input digest it names.
+pub fn layout_from_receipt(path: &Path) -> anyhow::Result<(Layout, String)> {
+    let text = std::fs::read_to_string(path)
+        .with_context(|| format!("{}: cannot read the receipt", path.display()))?;
+    let r =
+        Receipt::from_json_str(&text).map_err(|e| anyhow::anyhow!("{}: {e}", path.display()))?;
+    let extractor = match r.construction.extractor.as_str() {
+        "toeplitz" => ExtractorArg::Toeplitz,
+        "modified-toeplitz" => ExtractorArg::ModifiedToeplitz,
+        other => bail!(
+            "{}: extractor {other:?} is not one this version runs",
+            path.display()
+        ),
+    };
+    Ok((
+        Layout {
+            extractor,
+            m: usize::try_from(r.construction.output_bits)?,
+            block_bits: Some(usize::try_from(r.construction.input_bits)?),
+            input_bits: Some(r.blocks.input_bits_total),
+        },
+        r.input.digest,
+    ))
+}

@@ -1,0 +1,163 @@
+//! Receipts: what an extraction did, enough to reproduce it.
+//!
+//! A receipt (`OUT.receipt.json`, schema `sluice-receipt/1`) names the
+//! construction and every integer that defines it, the block layout, the
+//! seed (length and identifier: a random identifier, never a hash of the
+//! seed), the input's data digest, the certificate it relied on, and every
+//! error term with the total. With the input and the seed it is enough for
+//! `sluice verify --receipt` to recompute the output.
+//!
+//! It holds a digest of the raw input, which `spec/hashing-and-composition.md`
+//! 4.6 keeps private; it is written owner-only and says so. The output's own
+//! digest is included only on request, since a published digest of a secret
+//! output leaves only a computational guarantee for it (`spec/conventions.md`).
+
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+
+/// The schema name of version 1.
+pub const SCHEMA: &str = "sluice-receipt/1";
+
+/// A receipt.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Receipt {
+    /// Always [`SCHEMA`].
+    pub schema: String,
+    /// The program and version that wrote it.
+    pub tool: String,
+    /// The construction.
+    pub construction: Construction,
+    /// The block layout.
+    pub blocks: Blocks,
+    /// The raw input.
+    pub input: InputRecord,
+    /// The seed (never its bits or a hash of them).
+    pub seed: SeedRecord,
+    /// The certificate the entropy figures came from, if any.
+    pub certificate: Option<CertificateRecord>,
+    /// Every error term and the total.
+    pub errors: Errors,
+    /// What the total means.
+    pub meaning: String,
+    /// Conditions the figure assumes.
+    pub assumed: Vec<String>,
+    /// The output's data digest, only when asked for.
+    pub output_digest: Option<String>,
+    /// Notes on privacy and on the output digest.
+    pub notes: Vec<String>,
+}
+
+/// The construction and its defining integers.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Construction {
+    /// `toeplitz`, `modified-toeplitz`, ...
+    pub extractor: String,
+    /// Input bits n per block.
+    pub input_bits: u64,
+    /// Output bits m per block.
+    pub output_bits: u64,
+    /// Seed bits d.
+    pub seed_bits: u64,
+    /// Further defining integers (Trevisan: one-bit, design, field bits...).
+    pub params: BTreeMap<String, String>,
+    /// Why it was chosen.
+    pub reason: String,
+}
+
+/// How the input was cut.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Blocks {
+    /// Number of blocks L hashed with the one seed, in file order.
+    pub count: u64,
+    /// Bits of the input considered (`--input-bits`, or the whole file).
+    pub input_bits_total: u64,
+    /// Bits after the last block, not hashed.
+    pub trailing_bits_unused: u64,
+    /// The block order the entropy condition refers to.
+    pub order: String,
+}
+
+/// The raw input.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct InputRecord {
+    /// Data digest of the first `input_bits_total` bits (private).
+    pub digest: String,
+    /// File format and bit order it was read with.
+    pub format: String,
+    /// Bit order inside bytes.
+    pub bit_order: String,
+}
+
+/// The seed.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SeedRecord {
+    /// Random identifier (32 hex digits) when the seed is registered;
+    /// `None` for an explicit seed file.
+    pub id: Option<String>,
+    /// Seed bits used.
+    pub bits: u64,
+    /// Where it came from.
+    pub source: String,
+    /// Declared deficiency s in bits.
+    pub deficiency: f64,
+}
+
+/// The certificate.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CertificateRecord {
+    /// BLAKE3 of the certificate file's bytes.
+    pub file_digest: String,
+    /// The setup label (e.g. "not device-independent").
+    pub setup: String,
+    /// Whether the certificate may be called device-independent.
+    pub device_independent: bool,
+}
+
+/// Error terms (`spec/hashing-and-composition.md` 5).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Errors {
+    /// The formula.
+    pub formula: String,
+    /// Certification failure term (once).
+    pub eps_cert: f64,
+    /// eps_seed (once per seed).
+    pub eps_seed: f64,
+    /// Smoothing per block.
+    pub eps_s: f64,
+    /// Extractor error per block with a uniform seed.
+    pub eps_ext: f64,
+    /// Seed deficiency s.
+    pub seed_deficiency: f64,
+    /// Blocks L.
+    pub blocks: u64,
+    /// The total.
+    pub eps_total: f64,
+    /// The total rounded up to four digits, as printed.
+    pub eps_total_rounded_up: String,
+    /// Target it meets.
+    pub target: f64,
+    /// Leftover hash lemma form used.
+    pub form: String,
+}
+
+impl Receipt {
+    /// Parses and checks the schema.
+    pub fn from_json_str(text: &str) -> Result<Receipt, String> {
+        let r: Receipt =
+            serde_json::from_str(text).map_err(|e| format!("not a sluice receipt: {e}"))?;
+        if r.schema != SCHEMA {
+            return Err(format!(
+                "schema {:?}: this version reads {SCHEMA:?}",
+                r.schema
+            ));
+        }
+        Ok(r)
+    }
+}
