@@ -24,6 +24,7 @@
 
 #![warn(missing_docs)]
 
+pub mod assess;
 pub mod bits;
 pub mod extract;
 pub mod gf2;
