@@ -7,8 +7,23 @@
 
 /// Complementary error function erfc(z) = (2/√π) ∫_z^∞ e^(−u²) du
 /// (statistics.md section 1; SP 800-22 section 5.5.3).
+///
+/// Computed as erfc(z) = Q(1/2, z²) for z ≥ 0 and 2 − erfc(−z) below
+/// (common practice: the standard identity between the two functions),
+/// with statrs's regularised incomplete gamma. statrs's own `erfc` is off
+/// by up to 1e-10 relative on the statistics.md section 1 rows (measured),
+/// its incomplete gamma by under 1e-14 at small a.
 pub fn erfc(z: f64) -> f64 {
-    statrs::function::erf::erfc(z)
+    if z.is_nan() {
+        return f64::NAN;
+    }
+    if z < 0.0 {
+        return 2.0 - erfc(-z);
+    }
+    if z == 0.0 {
+        return 1.0;
+    }
+    statrs::function::gamma::gamma_ur(0.5, z * z)
 }
 
 /// igamc(a, x) = Q(a, x) = Γ(a, x)/Γ(a), the regularised upper incomplete
@@ -88,6 +103,9 @@ mod tests {
             assert!(rel_close(got, want, 1e-9), "Q({a}, {x}) = {got:e}, want {want:e}");
         }
         assert_eq!(igamc(3.0, 0.0), 1.0);
+        // erfc on the negative side and at 0
+        assert!((erfc(-1.0) - (2.0 - 0.15729920705028513)).abs() < 1e-15);
+        assert_eq!(erfc(0.0), 1.0);
     }
 
     /// statistics.md section 1, Φ row (mpmath at 40 digits, status C).
