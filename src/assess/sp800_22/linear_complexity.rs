@@ -8,8 +8,10 @@ use serde::Serialize;
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Default, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum LcTable {
-    /// π_0 = 0.01047 with the other classes exact: what section 2.10.8 and
-    /// Appendix B need (statistics.md section 6 item 9). Default.
+    /// π_0 = 0.01047 and π_6 = 0.020833, the others exact: what section
+    /// 2.10.8 and Appendix B need. statistics.md section 6 item 9 names
+    /// only π_0; LC-2 (χ² = 2.700348212) reproduces only if π_6 is also the
+    /// 6-decimal 0.020833 (with 1/48 it is 2.700162). Default.
     #[default]
     Published,
     /// The exact limits 1/96, 1/32, 1/8, 1/2, 1/4, 1/16, 1/48.
@@ -17,12 +19,12 @@ pub enum LcTable {
 }
 
 impl LcTable {
-    fn pis(self) -> [f64; 7] {
-        let p0 = match self {
-            LcTable::Published => 0.01047,
-            LcTable::Exact => 1.0 / 96.0,
-        };
-        [p0, 1.0 / 32.0, 1.0 / 8.0, 0.5, 0.25, 1.0 / 16.0, 1.0 / 48.0]
+    /// The class probabilities π_0 … π_6.
+    pub fn pis(self) -> [f64; 7] {
+        match self {
+            LcTable::Published => [0.01047, 1.0 / 32.0, 1.0 / 8.0, 0.5, 0.25, 1.0 / 16.0, 0.020833],
+            LcTable::Exact => [1.0 / 96.0, 1.0 / 32.0, 1.0 / 8.0, 0.5, 0.25, 1.0 / 16.0, 1.0 / 48.0],
+        }
     }
 }
 
@@ -164,6 +166,14 @@ fn class_of(t: f64) -> usize {
 /// # Panics
 /// If `x` is shorter than one block.
 pub fn linear_complexity(x: &[u8], m: usize, table: LcTable) -> LinearComplexity {
+    linear_complexity_with(x, m, &table.pis())
+}
+
+/// [`linear_complexity`] with explicit class probabilities π_0 … π_6.
+///
+/// # Panics
+/// If `x` is shorter than one block.
+pub fn linear_complexity_with(x: &[u8], m: usize, pis: &[f64; 7]) -> LinearComplexity {
     assert!(m > 0 && x.len() >= m, "linear complexity: {} bits, M = {m}", x.len());
     let blocks = x.len() / m;
     let mut nu = [0u64; 7];
@@ -173,8 +183,8 @@ pub fn linear_complexity(x: &[u8], m: usize, table: LcTable) -> LinearComplexity
     let nf = blocks as f64;
     let chi_square = nu
         .iter()
-        .zip(table.pis())
-        .map(|(&v, p)| (v as f64 - nf * p).powi(2) / (nf * p))
+        .zip(pis)
+        .map(|(&v, &p)| (v as f64 - nf * p).powi(2) / (nf * p))
         .sum::<f64>();
     LinearComplexity {
         m,

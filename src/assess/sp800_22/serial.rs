@@ -112,7 +112,12 @@ pub fn approximate_entropy(x: &[u8], m: usize) -> ApproximateEntropy {
     assert!(m >= 1 && !x.is_empty(), "approximate entropy: m = {m}");
     let phi = [phi(x, m), phi(x, m + 1)];
     let ap_en = phi[0] - phi[1];
-    let chi_square = 2.0 * x.len() as f64 * (std::f64::consts::LN_2 - ap_en);
+    // χ² = 2n(ln 2 − ApEn) suffers cancellation for large n; since
+    // φ(m) = (1/n) Σ c ln c − ln n, ApEn = (S_m − S_{m+1})/n with
+    // S_m = Σ c ln c, which is computed without it.
+    let s = |m: usize| cyclic_counts(x, m).iter().filter(|&&c| c > 0).map(|&c| c as f64 * (c as f64).ln()).sum::<f64>();
+    let n = x.len() as f64;
+    let chi_square = 2.0 * n * std::f64::consts::LN_2 - 2.0 * (s(m) - s(m + 1));
     ApproximateEntropy {
         m,
         phi,
