@@ -5,6 +5,7 @@
 //! counts as success; `--json` prints one JSON document on standard output
 //! for scripts; progress bars appear only on a terminal.
 
+mod assess;
 mod common;
 
 use clap::{Parser, Subcommand};
@@ -21,12 +22,16 @@ struct Cli {
 #[derive(Subcommand)]
 enum Command {
     // Each command is one variant; its options live in its own module.
+    /// Statistical checks of raw input (SP 800-90B) or extracted output (SP 800-22).
+    Assess(assess::AssessArgs),
 }
 
 /// Runs the command line and maps the outcome to an exit status.
 pub fn main() -> ExitCode {
     let cli = Cli::parse();
-    let result: anyhow::Result<ExitCode> = match cli.command {};
+    let result: anyhow::Result<ExitCode> = match cli.command {
+        Command::Assess(args) => assess::run(args),
+    };
     match result {
         Ok(code) => code,
         Err(e) => common::report_error(&e),
