@@ -616,10 +616,10 @@ fn plot_output(path: &Path, r: &OutputReport) -> anyhow::Result<()> {
             .margin(12)
             .x_label_area_size(40)
             .y_label_area_size(60)
-            .build_cartesian_2d(0f64..n as f64, ymin.max(0.0)..1.005f64)
+            .build_cartesian_2d(0f64..n as f64, ymin.max(0.0)..1.012f64)
             .map_err(plot_err)?;
         ch.configure_mesh()
-            .x_desc("P-value kind (tests in SP 800-22 order; many-template tests span wide ranges)")
+            .x_desc("P-value kind, grouped by test (SP 800-22 section numbers at the top)")
             .y_desc("proportion passing")
             .disable_x_mesh()
             .draw()
@@ -633,6 +633,30 @@ fn plot_output(path: &Path, r: &OutputReport) -> anyhow::Result<()> {
         .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 12, y + 5)], GREEN.mix(0.3).filled()));
         ch.draw_series(LineSeries::new([(0.0, lo), (n as f64, lo)], GREEN.stroke_width(2)))
             .map_err(plot_err)?;
+        // thin separators and section numbers between tests
+        let mut starts: Vec<(usize, &str)> = Vec::new();
+        for (i, k) in r.kinds.iter().enumerate() {
+            if i == 0 || r.kinds[i - 1].test != k.test {
+                starts.push((i, k.section));
+            }
+        }
+        for (j, &(i, sec)) in starts.iter().enumerate() {
+            let width = starts.get(j + 1).map_or(r.kinds.len(), |s| s.0) - i;
+            ch.draw_series(LineSeries::new(
+                [(i as f64, ymin.max(0.0)), (i as f64, 1.005)],
+                BLACK.mix(0.25),
+            ))
+            .map_err(plot_err)?;
+            if width < 5 {
+                continue; // no room for a label
+            }
+            ch.draw_series(std::iter::once(Text::new(
+                sec.to_string(),
+                (i as f64 + 0.3, 1.003),
+                ("sans-serif", 11).into_font(),
+            )))
+            .map_err(plot_err)?;
+        }
         ch.draw_series(r.kinds.iter().enumerate().map(|(i, k)| {
             let c = if k.flagged { RED.filled() } else { BLUE.filled() };
             Circle::new((i as f64 + 0.5, k.summary.proportion), 3, c)

@@ -577,6 +577,19 @@ mod tests {
         assert!((e.min_entropy.unwrap() - 1.0 / 128.0).abs() < 1e-12);
     }
 
+    /// At p = 2^−6 (uniform 6-bit blocks) the compression expectation
+    /// G(p) + 63 G(q) is Maurer's expectedValue(6) = 5.2177052 (SP 800-22
+    /// section 2.9.4 table, statistics.md 3.3): both are E[log2 D] for the
+    /// distance D between repeats of a uniform 6-bit block (the dictionary
+    /// start-up effect, (63/64)^1000 ≈ 1.5e-7, is negligible).
+    #[test]
+    fn compression_expectation_matches_maurer_table() {
+        let l = 1_000_000 / 6;
+        let p = 1.0 / 64.0;
+        let e = compression_g(p, 1000, l) + 63.0 * compression_g(p, 1000, l);
+        assert!((e - 5.2177052).abs() < 1e-5, "{e}");
+    }
+
     proptest! {
         /// The O(L) G(z) equals the double sum.
         #[test]
