@@ -27,30 +27,42 @@ fn pseudo_random_bits(n: usize, seed: u64) -> Bits {
 
 fn battery(c: &mut Criterion) {
     let mut g = c.benchmark_group("sp800_22");
-    g.sample_size(10).warm_up_time(Duration::from_secs(1)).measurement_time(Duration::from_secs(8));
+    g.sample_size(10)
+        .warm_up_time(Duration::from_secs(1))
+        .measurement_time(Duration::from_secs(8));
     let one = pseudo_random_bits(1_000_000, 0x5eed_0001);
     g.throughput(Throughput::Elements(1_000_000));
     g.bench_function(BenchmarkId::new("battery", "1 x 10^6 bits"), |b| {
         b.iter(|| run_battery(&one, &Config::default()))
     });
-    let ten: Vec<Vec<u8>> = (0..10).map(|i| bit_values(&pseudo_random_bits(1_000_000, 0x5eed_0100 + i))).collect();
+    let ten: Vec<Vec<u8>> = (0..10)
+        .map(|i| bit_values(&pseudo_random_bits(1_000_000, 0x5eed_0100 + i)))
+        .collect();
     g.throughput(Throughput::Elements(10_000_000));
-    g.bench_function(BenchmarkId::new("battery parallel", "10 x 10^6 bits"), |b| {
-        b.iter(|| {
-            ten.par_iter()
-                .map(|x| run_battery_values(x, &Config::default()).len())
-                .sum::<usize>()
-        })
-    });
+    g.bench_function(
+        BenchmarkId::new("battery parallel", "10 x 10^6 bits"),
+        |b| {
+            b.iter(|| {
+                ten.par_iter()
+                    .map(|x| run_battery_values(x, &Config::default()).len())
+                    .sum::<usize>()
+            })
+        },
+    );
     g.finish();
 }
 
 fn health_tests(c: &mut Criterion) {
     let mut g = c.benchmark_group("sp800_90b health");
-    g.sample_size(10).warm_up_time(Duration::from_secs(1)).measurement_time(Duration::from_secs(4));
+    g.sample_size(10)
+        .warm_up_time(Duration::from_secs(1))
+        .measurement_time(Duration::from_secs(4));
     let n = 100_000_000;
     let bits = pseudo_random_bits(n, 0x5eed_0002);
-    let (rc, ac) = (health::rct_cutoff(0.8, 1).unwrap(), health::apt_cutoff(0.8, 1, 1024).unwrap());
+    let (rc, ac) = (
+        health::rct_cutoff(0.8, 1).unwrap(),
+        health::apt_cutoff(0.8, 1, 1024).unwrap(),
+    );
     g.throughput(Throughput::Elements(n as u64));
     g.bench_function(BenchmarkId::new("repetition count", "10^8 bits"), |b| {
         b.iter(|| health::rct_bits(&bits, rc))
@@ -63,7 +75,9 @@ fn health_tests(c: &mut Criterion) {
 
 fn estimates(c: &mut Criterion) {
     let mut g = c.benchmark_group("sp800_90b estimators");
-    g.sample_size(10).warm_up_time(Duration::from_secs(1)).measurement_time(Duration::from_secs(8));
+    g.sample_size(10)
+        .warm_up_time(Duration::from_secs(1))
+        .measurement_time(Duration::from_secs(8));
     let x = bit_values(&pseudo_random_bits(1_000_000, 0x5eed_0003));
     g.bench_function(BenchmarkId::new("all six", "10^6 samples"), |b| {
         b.iter(|| estimators::assess_binary(&x))

@@ -11,8 +11,8 @@
 
 use num_bigint::BigUint;
 use sluice::assess::sp800_22::{
-    bit_values, excursions, frequency, linear_complexity, longest_run, rank, serial, spectral, template,
-    universal,
+    bit_values, excursions, frequency, linear_complexity, longest_run, rank, serial, spectral,
+    template, universal,
 };
 use sluice::bits::{digest::data_digest, Bits};
 use std::sync::OnceLock;
@@ -69,7 +69,11 @@ fn e_bits(n: usize) -> Bits {
 /// Binary splitting for atan(1/x) = (1/x) Σ_k (−1)^k x^(−2k)/(2k+1):
 /// returns (P, Q, T) over terms a..b with p(j) = −(2j−1),
 /// q(j) = (2j+1) x² (signs kept apart: P and T as signed pairs).
-fn atan_split(a: u64, b: u64, x2: u64) -> (num_bigint::BigInt, num_bigint::BigInt, num_bigint::BigInt) {
+fn atan_split(
+    a: u64,
+    b: u64,
+    x2: u64,
+) -> (num_bigint::BigInt, num_bigint::BigInt, num_bigint::BigInt) {
     use num_bigint::BigInt;
     if b - a == 1 {
         let p = -BigInt::from(2 * a - 1);
@@ -116,7 +120,11 @@ struct Constant {
 fn check_digests(b: &Bits, ones: u64, first64: &str, blake_ascii: &str, project_id: &str) {
     assert_eq!(b.count_ones(), ones, "ones");
     assert_eq!(b.slice(0, 64).to_ascii(), first64, "first 64 bits");
-    assert_eq!(blake3::hash(b.to_ascii().as_bytes()).to_hex().as_str(), blake_ascii, "BLAKE3 of ASCII");
+    assert_eq!(
+        blake3::hash(b.to_ascii().as_bytes()).to_hex().as_str(),
+        blake_ascii,
+        "BLAKE3 of ASCII"
+    );
     assert_eq!(data_digest(b), project_id, "project id");
     assert_eq!(b.to_packed(sluice::bits::BitOrder::Msb).len(), 125_000);
 }
@@ -146,7 +154,10 @@ fn e1m() -> &'static Constant {
 
 fn check_digests_short(b: &Bits, ones: u64, blake_ascii: &str, project_id: &str) {
     assert_eq!(b.count_ones(), ones, "ones");
-    assert_eq!(blake3::hash(b.to_ascii().as_bytes()).to_hex().as_str(), blake_ascii);
+    assert_eq!(
+        blake3::hash(b.to_ascii().as_bytes()).to_hex().as_str(),
+        blake_ascii
+    );
     assert_eq!(data_digest(b), project_id);
 }
 
@@ -209,13 +220,23 @@ fn check(what: &str, got: f64, recomputed: f64, printed: Option<f64>, tol_printe
 
 /// [`check`] with a chosen relative tolerance for the recomputed value.
 #[track_caller]
-fn check_rel(what: &str, got: f64, recomputed: f64, printed: Option<f64>, tol_printed: f64, rel: f64) {
+fn check_rel(
+    what: &str,
+    got: f64,
+    recomputed: f64,
+    printed: Option<f64>,
+    tol_printed: f64,
+    rel: f64,
+) {
     assert!(
         ((got - recomputed) / recomputed).abs() <= rel,
         "{what}: {got} vs recomputed {recomputed}"
     );
     if let Some(p) = printed {
-        assert!((got - p).abs() <= tol_printed, "{what}: {got} vs printed {p}");
+        assert!(
+            (got - p).abs() <= tol_printed,
+            "{what}: {got} vs printed {p}"
+        );
     }
 }
 
@@ -252,7 +273,13 @@ fn appendix_b(name: &str, bits: &Bits, c: &Column) {
     let x = bit_values(bits);
     let p = 5e-7;
     let pr = |v: (f64, f64)| Some(v.0);
-    check(&format!("{name} frequency"), frequency::frequency(&x).p_value, c.frequency.1, pr(c.frequency), p);
+    check(
+        &format!("{name} frequency"),
+        frequency::frequency(&x).p_value,
+        c.frequency.1,
+        pr(c.frequency),
+        p,
+    );
     check(
         &format!("{name} block frequency"),
         frequency::block_frequency(&x, 128).p_value,
@@ -261,16 +288,47 @@ fn appendix_b(name: &str, bits: &Bits, c: &Column) {
         p,
     );
     let f = frequency::cumulative_sums(&x, frequency::Direction::Forward).p_value;
-    check(&format!("{name} cusum forward"), f, c.cusum_forward.1, pr(c.cusum_forward), 1e-6);
+    check(
+        &format!("{name} cusum forward"),
+        f,
+        c.cusum_forward.1,
+        pr(c.cusum_forward),
+        1e-6,
+    );
     let b = frequency::cumulative_sums(&x, frequency::Direction::Backward).p_value;
-    check(&format!("{name} cusum backward"), b, c.cusum_backward.1, pr(c.cusum_backward), 1e-6);
-    check(&format!("{name} runs"), frequency::runs(&x).p_value, c.runs.1, pr(c.runs), p);
+    check(
+        &format!("{name} cusum backward"),
+        b,
+        c.cusum_backward.1,
+        pr(c.cusum_backward),
+        1e-6,
+    );
+    check(
+        &format!("{name} runs"),
+        frequency::runs(&x).p_value,
+        c.runs.1,
+        pr(c.runs),
+        p,
+    );
     let lr = longest_run::longest_run(&x, &longest_run::M10000, longest_run::ClassTable::Printed);
-    check(&format!("{name} longest run"), lr.p_value, c.longest_run.1, pr(c.longest_run), p);
+    check(
+        &format!("{name} longest run"),
+        lr.p_value,
+        c.longest_run.1,
+        pr(c.longest_run),
+        p,
+    );
     assert_eq!(lr.nu, c.longest_run_nu.to_vec(), "{name} longest run ν");
     let lre = longest_run::longest_run(&x, &longest_run::M10000, longest_run::ClassTable::Exact);
     // the exact class table of statistics.md 3.1 has 10 significant digits
-    check_rel(&format!("{name} longest run exact"), lre.p_value, c.longest_run_exact, None, 0.0, 1e-8);
+    check_rel(
+        &format!("{name} longest run exact"),
+        lre.p_value,
+        c.longest_run_exact,
+        None,
+        0.0,
+        1e-8,
+    );
     // Rank: the recomputed column of statistics.md 2.16 is off by about
     // 1e-8 relative from the exact value. Our P-value agrees with one
     // computed from the closed form in exact rational arithmetic (Python
@@ -279,7 +337,14 @@ fn appendix_b(name: &str, bits: &Bits, c: &Column) {
     // the recomputed column uses 1e-7 relative; the printed 6-decimal value
     // still has to match to 5e-7.
     let rk = rank::rank(&x, 32, 32, rank::RankTable::Exact);
-    check_rel(&format!("{name} rank"), rk.p_value, c.rank.1, pr(c.rank), p, 1e-7);
+    check_rel(
+        &format!("{name} rank"),
+        rk.p_value,
+        c.rank.1,
+        pr(c.rank),
+        p,
+        1e-7,
+    );
     check(
         &format!("{name} rank printed table"),
         rank::rank(&x, 32, 32, rank::RankTable::Printed32).p_value,
@@ -287,19 +352,47 @@ fn appendix_b(name: &str, bits: &Bits, c: &Column) {
         None,
         0.0,
     );
-    check(&format!("{name} DFT"), spectral::spectral(&x).p_value, c.dft.1, pr(c.dft), p);
+    check(
+        &format!("{name} DFT"),
+        spectral::spectral(&x).p_value,
+        c.dft.1,
+        pr(c.dft),
+        p,
+    );
     let t = template::Template::parse("000000001").unwrap();
     let no = template::non_overlapping(&x, &t, 8);
-    check(&format!("{name} non-overlapping"), no.p_value, c.non_overlapping.1, pr(c.non_overlapping), p);
+    check(
+        &format!("{name} non-overlapping"),
+        no.p_value,
+        c.non_overlapping.1,
+        pr(c.non_overlapping),
+        p,
+    );
     let fast = template::non_overlapping_many(&x, &template::aperiodic_templates(9), 8);
     assert_eq!(fast[0].w, no.w, "{name}: fast template path");
     let ones9 = template::Template(vec![1; 9]);
     let ov = template::overlapping(&x, &ones9, 1032, template::OverlapTable::EtaFormula);
-    check(&format!("{name} overlapping"), ov.p_value, c.overlapping.1, pr(c.overlapping), p);
+    check(
+        &format!("{name} overlapping"),
+        ov.p_value,
+        c.overlapping.1,
+        pr(c.overlapping),
+        p,
+    );
     let ove = template::overlapping(&x, &ones9, 1032, template::OverlapTable::Exact9x1032);
     // the exact table is quoted to 6 decimals, so compare to 1e-6 relative
-    assert!(((ove.p_value - c.overlapping_exact) / c.overlapping_exact).abs() < 1e-5, "{name} overlapping exact {}", ove.p_value);
-    check(&format!("{name} universal"), universal::universal(&x, 7, 1280).p_value, c.universal.1, pr(c.universal), p);
+    assert!(
+        ((ove.p_value - c.overlapping_exact) / c.overlapping_exact).abs() < 1e-5,
+        "{name} overlapping exact {}",
+        ove.p_value
+    );
+    check(
+        &format!("{name} universal"),
+        universal::universal(&x, 7, 1280).p_value,
+        c.universal.1,
+        pr(c.universal),
+        p,
+    );
     check(
         &format!("{name} approximate entropy"),
         serial::approximate_entropy(&x, 10).p_value,
@@ -310,17 +403,53 @@ fn appendix_b(name: &str, bits: &Bits, c: &Column) {
     let w = excursions::walk(&x);
     assert_eq!(w.cycles, c.cycles, "{name} J");
     let re = excursions::random_excursions(&w, excursions::ExcursionTable::Exact);
-    check(&format!("{name} excursions +1"), re[4].p_value, c.excursion_plus1.1, pr(c.excursion_plus1), p);
+    check(
+        &format!("{name} excursions +1"),
+        re[4].p_value,
+        c.excursion_plus1.1,
+        pr(c.excursion_plus1),
+        p,
+    );
     let rv = excursions::random_excursions_variant(&w);
-    check(&format!("{name} variant -1"), rv[8].p_value, c.variant_minus1.1, pr(c.variant_minus1), p);
+    check(
+        &format!("{name} variant -1"),
+        rv[8].p_value,
+        c.variant_minus1.1,
+        pr(c.variant_minus1),
+        p,
+    );
     let lc = linear_complexity::linear_complexity(&x, 500, linear_complexity::LcTable::Published);
-    check(&format!("{name} linear complexity"), lc.p_value, c.linear_complexity.1, pr(c.linear_complexity), p);
+    check(
+        &format!("{name} linear complexity"),
+        lc.p_value,
+        c.linear_complexity.1,
+        pr(c.linear_complexity),
+        p,
+    );
     // statistics.md's "π_0 = 1/96" variant (see PI0_EXACT_ONLY)
     let lce = linear_complexity::linear_complexity_with(&x, 500, &PI0_EXACT_ONLY);
-    check(&format!("{name} linear complexity pi0 = 0.010417"), lce.p_value, c.lc_exact, None, 0.0);
+    check(
+        &format!("{name} linear complexity pi0 = 0.010417"),
+        lce.p_value,
+        c.lc_exact,
+        None,
+        0.0,
+    );
     let se = serial::serial(&x, 16);
-    check(&format!("{name} serial P1"), se.p_value1, c.serial_p1.1, pr(c.serial_p1), p);
-    check(&format!("{name} serial P2"), se.p_value2, c.serial_p2, None, 0.0);
+    check(
+        &format!("{name} serial P1"),
+        se.p_value1,
+        c.serial_p1.1,
+        pr(c.serial_p1),
+        p,
+    );
+    check(
+        &format!("{name} serial P2"),
+        se.p_value2,
+        c.serial_p2,
+        None,
+        0.0,
+    );
 }
 
 /// statistics.md 2.16, π column (Appendix B, from memory; all R).
@@ -469,10 +598,27 @@ fn section_2_16_appendix_b_sqrt3() {
 fn section_2_5_rank_rk2_e100k() {
     let x = bit_values(&e1m().bits.slice(0, 100_000));
     let r = rank::rank(&x, 32, 32, rank::RankTable::Exact);
-    assert_eq!((r.matrices, r.full, r.full_minus_one, r.rest), (97, 23, 60, 14));
+    assert_eq!(
+        (r.matrices, r.full, r.full_minus_one, r.rest),
+        (97, 23, 60, 14)
+    );
     // 1e-7 relative: see the rank note in `appendix_b`.
-    check_rel("RK-2 chi2", r.chi_square, 1.261965625, Some(1.2619656), 5e-8, 1e-7);
-    check_rel("RK-2 P", r.p_value, 0.5320686203, Some(0.532069), 5e-7, 1e-7);
+    check_rel(
+        "RK-2 chi2",
+        r.chi_square,
+        1.261965625,
+        Some(1.2619656),
+        5e-8,
+        1e-7,
+    );
+    check_rel(
+        "RK-2 P",
+        r.p_value,
+        0.5320686203,
+        Some(0.532069),
+        5e-7,
+        1e-7,
+    );
     let r = rank::rank(&x, 32, 32, rank::RankTable::Printed32);
     assert!((r.chi_square - 1.2625804).abs() < 5e-8);
     assert!((r.p_value - 0.531905).abs() < 5e-7);
@@ -483,11 +629,21 @@ fn section_2_5_rank_rk2_e100k() {
 #[test]
 fn section_2_8_overlapping_ot2_e1m() {
     let x = bit_values(&e1m().bits);
-    let r = template::overlapping(&x, &template::Template(vec![1; 9]), 1032, template::OverlapTable::EtaFormula);
+    let r = template::overlapping(
+        &x,
+        &template::Template(vec![1; 9]),
+        1032,
+        template::OverlapTable::EtaFormula,
+    );
     assert_eq!(r.nu, [329, 164, 150, 111, 78, 136]);
     check("OT-2 chi2", r.chi_square, 8.965859381, Some(8.965859), 5e-7);
     check("OT-2 P", r.p_value, 0.1104336854, Some(0.110434), 5e-7);
-    let r = template::overlapping(&x, &template::Template(vec![1; 9]), 1032, template::OverlapTable::Exact9x1032);
+    let r = template::overlapping(
+        &x,
+        &template::Template(vec![1; 9]),
+        1032,
+        template::OverlapTable::Exact9x1032,
+    );
     assert!((r.chi_square - 7.949747).abs() < 5e-5, "{}", r.chi_square);
 }
 
@@ -539,10 +695,30 @@ fn section_2_14_random_excursions_re2_e1m() {
     assert_eq!(w.cycles, 1490);
     let r = excursions::random_excursions(&w, excursions::ExcursionTable::Exact);
     let rows: [([u64; 6], f64, f64, Option<f64>); 8] = [
-        ([1296, 24, 14, 22, 18, 116], 3.835698213, 0.5733056950, Some(0.573306)),
-        ([1239, 38, 40, 24, 35, 114], 7.318707114, 0.1979960202, Some(0.197996)),
-        ([1135, 73, 60, 62, 41, 119], 7.861927252, 0.1640110494, Some(0.164011)),
-        ([727, 408, 155, 109, 36, 55], 15.69261745, 0.007778723096, Some(0.007779)),
+        (
+            [1296, 24, 14, 22, 18, 116],
+            3.835698213,
+            0.5733056950,
+            Some(0.573306),
+        ),
+        (
+            [1239, 38, 40, 24, 35, 114],
+            7.318707114,
+            0.1979960202,
+            Some(0.197996),
+        ),
+        (
+            [1135, 73, 60, 62, 41, 119],
+            7.861927252,
+            0.1640110494,
+            Some(0.164011),
+        ),
+        (
+            [727, 408, 155, 109, 36, 55],
+            15.69261745,
+            0.007778723096,
+            Some(0.007779),
+        ),
         ([763, 372, 187, 87, 40, 41], 2.430872483, 0.7868679052, None),
         ([1134, 86, 76, 49, 28, 117], 4.798906289, 0.4409117366, None),
         ([1247, 38, 37, 32, 18, 118], 2.357040537, 0.7978539717, None),
@@ -550,8 +726,20 @@ fn section_2_14_random_excursions_re2_e1m() {
     ];
     for (e, (nu, chi, p, printed)) in r.iter().zip(rows) {
         assert_eq!(e.nu, nu, "x = {}", e.state);
-        check(&format!("RE-2 x={} chi2", e.state), e.chi_square, chi, None, 0.0);
-        check(&format!("RE-2 x={} P", e.state), e.p_value, p, printed, 5e-7);
+        check(
+            &format!("RE-2 x={} chi2", e.state),
+            e.chi_square,
+            chi,
+            None,
+            0.0,
+        );
+        check(
+            &format!("RE-2 x={} P", e.state),
+            e.p_value,
+            p,
+            printed,
+            5e-7,
+        );
     }
 }
 
@@ -584,7 +772,13 @@ fn section_2_15_random_excursions_variant_rv2_e1m() {
     ];
     for (e, (xi, printed, p)) in r.iter().zip(rows) {
         assert_eq!(e.visits, xi, "x = {}", e.state);
-        check(&format!("RV-2 x={}", e.state), e.p_value, p, Some(printed), 5e-7);
+        check(
+            &format!("RV-2 x={}", e.state),
+            e.p_value,
+            p,
+            Some(printed),
+            5e-7,
+        );
     }
 }
 

@@ -77,7 +77,10 @@ fn output_single_sequence_pi100_json() {
         .output()
         .unwrap();
     let text = String::from_utf8(out.stdout).unwrap();
-    assert!(text.contains("statistical tests cannot certify randomness"), "{text}");
+    assert!(
+        text.contains("statistical tests cannot certify randomness"),
+        "{text}"
+    );
     assert!(text.contains("overall:"));
 }
 
@@ -93,7 +96,14 @@ fn output_many_sequences_with_plot() {
     let out = sluice()
         .args(["assess", "output"])
         .arg(&f)
-        .args(["--sequences", "100", "--sequence-bits", "2000", "--json", "--plot"])
+        .args([
+            "--sequences",
+            "100",
+            "--sequence-bits",
+            "2000",
+            "--json",
+            "--plot",
+        ])
         .arg(&svg)
         .output()
         .unwrap();
@@ -103,8 +113,16 @@ fn output_many_sequences_with_plot() {
     let lo = k["interval"][0].as_f64().unwrap();
     assert!((lo - 0.9601504).abs() < 5e-8);
     assert_eq!(k["sequences"], 100);
-    assert!(k["uniformity"].is_array(), "100 >= 55 sequences: uniformity computed");
-    let bins: u64 = k["bins"].as_array().unwrap().iter().map(|b| b.as_u64().unwrap()).sum();
+    assert!(
+        k["uniformity"].is_array(),
+        "100 >= 55 sequences: uniformity computed"
+    );
+    let bins: u64 = k["bins"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|b| b.as_u64().unwrap())
+        .sum();
     assert_eq!(bins, 100);
     let s = std::fs::read_to_string(&svg).unwrap();
     assert!(s.contains("<svg") && s.contains("acceptable range"), "svg");
@@ -163,7 +181,12 @@ fn raw_pseudo_random_passes() {
 }
 
 fn stderr_of(args: &[&str], file: &Path) -> (Option<i32>, String) {
-    let out = sluice().args(&args[..2]).arg(file).args(&args[2..]).output().unwrap();
+    let out = sluice()
+        .args(&args[..2])
+        .arg(file)
+        .args(&args[2..])
+        .output()
+        .unwrap();
     (out.status.code(), String::from_utf8(out.stderr).unwrap())
 }
 
@@ -173,9 +196,22 @@ fn errors_name_the_problem() {
     let dir = tempfile::tempdir().unwrap();
     let f = dir.path().join("short.bin");
     std::fs::write(&f, [0x5au8; 100]).unwrap();
-    let (code, err) = stderr_of(&["assess", "output", "--sequences", "2", "--sequence-bits", "1000"], &f);
+    let (code, err) = stderr_of(
+        &[
+            "assess",
+            "output",
+            "--sequences",
+            "2",
+            "--sequence-bits",
+            "1000",
+        ],
+        &f,
+    );
     assert_eq!(code, Some(2));
-    assert!(err.contains("2 sequences of 1000 bits need 2000 bits, but the input holds 800"), "{err}");
+    assert!(
+        err.contains("2 sequences of 1000 bits need 2000 bits, but the input holds 800"),
+        "{err}"
+    );
     let g = dir.path().join("bad.txt");
     std::fs::write(&g, "0101x").unwrap();
     let (code, err) = stderr_of(&["assess", "raw", "--format", "ascii"], &g);
@@ -198,7 +234,17 @@ fn bit_order_and_input_bits_options() {
         let out = sluice()
             .args(["assess", "raw"])
             .arg(&f)
-            .args(["--format", "hex", "--bit-order", order, "--input-bits", "40", "--json", "--claimed-entropy", "1"])
+            .args([
+                "--format",
+                "hex",
+                "--bit-order",
+                order,
+                "--input-bits",
+                "40",
+                "--json",
+                "--claimed-entropy",
+                "1",
+            ])
             .output()
             .unwrap();
         json(&out)
@@ -208,8 +254,22 @@ fn bit_order_and_input_bits_options() {
     assert_eq!(msb["bits"], 40);
     // MSB first: 1000000010000000...; LSB first: 0000000100000001...
     assert_eq!(msb["assessment"]["samples"], 40);
-    let mcv = |v: &serde_json::Value| v["assessment"]["estimates"][0]["detail"].as_str().unwrap().to_string();
+    let mcv = |v: &serde_json::Value| {
+        v["assessment"]["estimates"][0]["detail"]
+            .as_str()
+            .unwrap()
+            .to_string()
+    };
     assert_eq!(mcv(&msb), mcv(&lsb), "same counts either way");
-    let first = |v: &serde_json::Value| v["assessment"]["estimates"][2]["detail"].as_str().unwrap().to_string();
-    assert_ne!(first(&msb), first(&lsb), "Markov sees the first bit: 1 vs 0");
+    let first = |v: &serde_json::Value| {
+        v["assessment"]["estimates"][2]["detail"]
+            .as_str()
+            .unwrap()
+            .to_string()
+    };
+    assert_ne!(
+        first(&msb),
+        first(&lsb),
+        "Markov sees the first bit: 1 vs 0"
+    );
 }

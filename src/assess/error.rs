@@ -23,7 +23,11 @@ pub enum ErrorKind {
 }
 
 impl Error {
-    pub(crate) fn out_of_range(position: &'static str, value: impl fmt::Display, allowed: &'static str) -> Self {
+    pub(crate) fn out_of_range(
+        position: &'static str,
+        value: impl fmt::Display,
+        allowed: &'static str,
+    ) -> Self {
         Error {
             kind: ErrorKind::OutOfRange {
                 value: value.to_string(),

@@ -87,6 +87,27 @@ pub fn summarise(p_values: &[f64], alpha: f64) -> Summary {
     }
 }
 
+/// Probability that one P-value kind of `m` independent sequences with
+/// uniform P-values falls outside the proportion range of
+/// [`proportion_interval`]: Σ P[Bin(m, α) = f] over the failure counts f
+/// with (m − f)/m outside the range. The 3-sigma band is coarse for small
+/// m (m = 100: four failures already fall outside, probability 0.018), so
+/// this is the figure to compare the number of flagged kinds with.
+pub fn chance_outside_interval(alpha: f64, m: usize) -> f64 {
+    let (lo, hi) = proportion_interval(alpha, m);
+    let mut total = 0.0;
+    // pmf by the recurrence pmf(f+1) = pmf(f)·(m−f)/(f+1)·α/(1−α)
+    let mut pmf = (1.0 - alpha).powi(m as i32);
+    for f in 0..=m {
+        let prop = (m - f) as f64 / m as f64;
+        if prop < lo || prop > hi {
+            total += pmf;
+        }
+        pmf *= (m - f) as f64 / (f + 1) as f64 * alpha / (1.0 - alpha);
+    }
+    total
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -104,6 +125,16 @@ mod tests {
         p.extend([0.001; 4]);
         let s = summarise(&p, 0.01);
         assert!((s.proportion - 0.996).abs() < 1e-12 && s.proportion_ok);
+    }
+
+    /// Binomial tail of the band, against values computed with Python's
+    /// exact `math.comb` sums while writing this test: m = 100 gives
+    /// P[F >= 4] = 0.01837403644; m = 1000 gives 0.00333153104 (F >= 20, and
+    /// F = 0, whose proportion 1 lies above the upper end 0.9994393).
+    #[test]
+    fn chance_outside_band() {
+        assert!((chance_outside_interval(0.01, 100) - 0.01837403644464964).abs() < 1e-12);
+        assert!((chance_outside_interval(0.01, 1000) - 0.0033315310351380977).abs() < 1e-12);
     }
 
     /// statistics.md 4, uniformity examples (status C).
@@ -127,6 +158,9 @@ mod tests {
     /// statistics.md 4: bins are [k/10, (k+1)/10), P = 1 in the last bin.
     #[test]
     fn section_4_bin_edges() {
-        assert_eq!(bin_counts(&[0.0, 0.1, 0.0999, 0.9, 1.0]), [2, 1, 0, 0, 0, 0, 0, 0, 0, 2]);
+        assert_eq!(
+            bin_counts(&[0.0, 0.1, 0.0999, 0.9, 1.0]),
+            [2, 1, 0, 0, 0, 0, 0, 0, 0, 2]
+        );
     }
 }

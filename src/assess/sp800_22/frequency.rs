@@ -48,7 +48,11 @@ pub struct BlockFrequency {
 /// If `m == 0` or `x` holds fewer than `m` bits (a caller bug; the battery
 /// checks sizes first).
 pub fn block_frequency(x: &[u8], m: usize) -> BlockFrequency {
-    assert!(m > 0 && x.len() >= m, "block frequency: block of {m} bits on {} bits", x.len());
+    assert!(
+        m > 0 && x.len() >= m,
+        "block frequency: block of {m} bits on {} bits",
+        x.len()
+    );
     let blocks = x.len() / m;
     let mut sum = 0.0;
     for blk in x.chunks_exact(m).take(blocks) {

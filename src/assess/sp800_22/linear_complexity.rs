@@ -22,8 +22,24 @@ impl LcTable {
     /// The class probabilities π_0 … π_6.
     pub fn pis(self) -> [f64; 7] {
         match self {
-            LcTable::Published => [0.01047, 1.0 / 32.0, 1.0 / 8.0, 0.5, 0.25, 1.0 / 16.0, 0.020833],
-            LcTable::Exact => [1.0 / 96.0, 1.0 / 32.0, 1.0 / 8.0, 0.5, 0.25, 1.0 / 16.0, 1.0 / 48.0],
+            LcTable::Published => [
+                0.01047,
+                1.0 / 32.0,
+                1.0 / 8.0,
+                0.5,
+                0.25,
+                1.0 / 16.0,
+                0.020833,
+            ],
+            LcTable::Exact => [
+                1.0 / 96.0,
+                1.0 / 32.0,
+                1.0 / 8.0,
+                0.5,
+                0.25,
+                1.0 / 16.0,
+                1.0 / 48.0,
+            ],
         }
     }
 }
@@ -81,14 +97,14 @@ pub fn berlekamp_massey(s: &[u8]) -> usize {
         let base = n - 1 - i;
         let words = l / 64 + 1;
         let mut acc = 0u64;
-        for w in 0..words {
+        for (w, &cw) in c.iter().enumerate().take(words) {
             let bit = base + 64 * w;
             let (q, r) = (bit / 64, bit % 64);
             let mut win = rev[q] >> r;
             if r != 0 {
                 win |= rev[q + 1] << (64 - r);
             }
-            acc ^= c[w] & win;
+            acc ^= cw & win;
         }
         // mask coefficients beyond l (they are zero in c anyway)
         if acc.count_ones() & 1 == 1 {
@@ -132,13 +148,13 @@ pub struct LinearComplexity {
 /// 2.10.4 step 3; statistics.md 2.10).
 pub fn mean(m: usize) -> f64 {
     let mf = m as f64;
-    let sign = if (m + 1) % 2 == 0 { 1.0 } else { -1.0 };
+    let sign = if (m + 1).is_multiple_of(2) { 1.0 } else { -1.0 };
     mf / 2.0 + (9.0 + sign) / 36.0 - (mf / 3.0 + 2.0 / 9.0) / 2f64.powi(m as i32)
 }
 
 /// T_i = (−1)^M (L_i − μ) + 2/9 (statistics.md 2.10).
 pub fn t_statistic(m: usize, l: usize) -> f64 {
-    let sign = if m % 2 == 0 { 1.0 } else { -1.0 };
+    let sign = if m.is_multiple_of(2) { 1.0 } else { -1.0 };
     sign * (l as f64 - mean(m)) + 2.0 / 9.0
 }
 
@@ -174,7 +190,11 @@ pub fn linear_complexity(x: &[u8], m: usize, table: LcTable) -> LinearComplexity
 /// # Panics
 /// If `x` is shorter than one block.
 pub fn linear_complexity_with(x: &[u8], m: usize, pis: &[f64; 7]) -> LinearComplexity {
-    assert!(m > 0 && x.len() >= m, "linear complexity: {} bits, M = {m}", x.len());
+    assert!(
+        m > 0 && x.len() >= m,
+        "linear complexity: {} bits, M = {m}",
+        x.len()
+    );
     let blocks = x.len() / m;
     let mut nu = [0u64; 7];
     for blk in x.chunks_exact(m) {

@@ -110,7 +110,12 @@ pub struct LongestRun {
 /// # Panics
 /// If `x` holds fewer than `cfg.m` bits.
 pub fn longest_run(x: &[u8], cfg: &Config, table: ClassTable) -> LongestRun {
-    assert!(x.len() >= cfg.m, "longest run: {} bits for blocks of {}", x.len(), cfg.m);
+    assert!(
+        x.len() >= cfg.m,
+        "longest run: {} bits for blocks of {}",
+        x.len(),
+        cfg.m
+    );
     let n_blocks = x.len() / cfg.m;
     let mut nu = vec![0u64; cfg.classes];
     for blk in x.chunks_exact(cfg.m) {

@@ -249,7 +249,11 @@ pub fn run_battery_values(x: &[u8], cfg: &Config) -> Vec<TestReport> {
     out.push(if n < 100 {
         na(TestId::Frequency, String::new(), short(100))
     } else {
-        done(TestId::Frequency, String::new(), one(frequency::frequency(x).p_value))
+        done(
+            TestId::Frequency,
+            String::new(),
+            one(frequency::frequency(x).p_value),
+        )
     });
 
     // 2.2 block frequency: n >= 100, M >= 20, M > 0.01 n, N < 100
@@ -304,7 +308,11 @@ pub fn run_battery_values(x: &[u8], cfg: &Config) -> Vec<TestReport> {
     out.push(if n < 1000 {
         na(TestId::Spectral, String::new(), short(1000))
     } else {
-        done(TestId::Spectral, String::new(), one(spectral::spectral(x).p_value))
+        done(
+            TestId::Spectral,
+            String::new(),
+            one(spectral::spectral(x).p_value),
+        )
     });
 
     // 2.7 non-overlapping: N = 8 blocks (N <= 100 and M = n/8 > 0.01 n
@@ -368,7 +376,11 @@ pub fn run_battery_values(x: &[u8], cfg: &Config) -> Vec<TestReport> {
     let lm = cfg.linear_complexity_m;
     let params = format!("M = {lm}");
     out.push(if !(500..=5000).contains(&lm) {
-        na(TestId::LinearComplexity, params, format!("M = {lm}: the standard asks for 500 <= M <= 5000"))
+        na(
+            TestId::LinearComplexity,
+            params,
+            format!("M = {lm}: the standard asks for 500 <= M <= 5000"),
+        )
     } else if n < 1_000_000 || n / lm < 200 {
         na(
             TestId::LinearComplexity,
@@ -379,7 +391,10 @@ pub fn run_battery_values(x: &[u8], cfg: &Config) -> Vec<TestReport> {
         done(
             TestId::LinearComplexity,
             params,
-            one(linear_complexity::linear_complexity(x, lm, linear_complexity::LcTable::Published).p_value),
+            one(
+                linear_complexity::linear_complexity(x, lm, linear_complexity::LcTable::Published)
+                    .p_value,
+            ),
         )
     });
 
@@ -389,7 +404,14 @@ pub fn run_battery_values(x: &[u8], cfg: &Config) -> Vec<TestReport> {
     out.push(if n < 100 {
         na(TestId::Serial, params, short(100))
     } else if sm < 2 || sm + 2 >= lg {
-        na(TestId::Serial, params, format!("m = {sm} breaks 2 <= m < floor(log2 n) - 2 = {}", lg as i64 - 2))
+        na(
+            TestId::Serial,
+            params,
+            format!(
+                "m = {sm} breaks 2 <= m < floor(log2 n) - 2 = {}",
+                lg as i64 - 2
+            ),
+        )
     } else {
         let r = serial::serial(x, sm);
         done(
@@ -409,7 +431,9 @@ pub fn run_battery_values(x: &[u8], cfg: &Config) -> Vec<TestReport> {
     });
 
     // 2.12 approximate entropy: m < floor(log2 n) - 5
-    let am = cfg.approximate_entropy_m.unwrap_or(10.min(lg.saturating_sub(6)));
+    let am = cfg
+        .approximate_entropy_m
+        .unwrap_or(10.min(lg.saturating_sub(6)));
     let params = format!("m = {am}");
     out.push(if n < 100 {
         na(TestId::ApproximateEntropy, params, short(100))
@@ -417,7 +441,10 @@ pub fn run_battery_values(x: &[u8], cfg: &Config) -> Vec<TestReport> {
         na(
             TestId::ApproximateEntropy,
             params,
-            format!("m = {am} breaks 1 <= m < floor(log2 n) - 5 = {}", lg as i64 - 5),
+            format!(
+                "m = {am} breaks 1 <= m < floor(log2 n) - 5 = {}",
+                lg as i64 - 5
+            ),
         )
     } else {
         done(
@@ -451,8 +478,16 @@ pub fn run_battery_values(x: &[u8], cfg: &Config) -> Vec<TestReport> {
 
     // 2.14 / 2.15 random excursions: n >= 10^6 and J >= 500
     if n < 1_000_000 {
-        out.push(na(TestId::RandomExcursions, String::new(), short(1_000_000)));
-        out.push(na(TestId::RandomExcursionsVariant, String::new(), short(1_000_000)));
+        out.push(na(
+            TestId::RandomExcursions,
+            String::new(),
+            short(1_000_000),
+        ));
+        out.push(na(
+            TestId::RandomExcursionsVariant,
+            String::new(),
+            short(1_000_000),
+        ));
     } else {
         let w = excursions::walk(x);
         if w.cycles < 500 {
@@ -494,7 +529,9 @@ mod tests {
 
     #[test]
     fn bit_values_follow_bit_order() {
-        let b = Bits::from_ascii("1100100100001111110110101010001000100001011010001100001000110100110").unwrap();
+        let b =
+            Bits::from_ascii("1100100100001111110110101010001000100001011010001100001000110100110")
+                .unwrap();
         let v = bit_values(&b);
         assert_eq!(v.len(), b.len());
         for (i, &x) in v.iter().enumerate() {
@@ -523,6 +560,8 @@ mod tests {
         }
         // 99 bits: nothing applies.
         let r = run_battery(&b.slice(0, 99), &Config::default());
-        assert!(r.iter().all(|t| matches!(t.outcome, Outcome::NotApplicable { .. })));
+        assert!(r
+            .iter()
+            .all(|t| matches!(t.outcome, Outcome::NotApplicable { .. })));
     }
 }

@@ -77,8 +77,15 @@ pub struct Rank {
 /// # Panics
 /// If `m` or `q` is 0 or above 64, or `x` holds fewer than M·Q bits.
 pub fn rank(x: &[u8], m: usize, q: usize, table: RankTable) -> Rank {
-    assert!((1..=64).contains(&m) && (1..=64).contains(&q), "rank: {m}x{q} matrices");
-    assert!(x.len() >= m * q, "rank: {} bits for {m}x{q} matrices", x.len());
+    assert!(
+        (1..=64).contains(&m) && (1..=64).contains(&q),
+        "rank: {m}x{q} matrices"
+    );
+    assert!(
+        x.len() >= m * q,
+        "rank: {} bits for {m}x{q} matrices",
+        x.len()
+    );
     let n_mat = x.len() / (m * q);
     let full_rank = m.min(q);
     let (mut full, mut minus1) = (0u64, 0u64);
@@ -87,7 +94,10 @@ pub fn rank(x: &[u8], m: usize, q: usize, table: RankTable) -> Rank {
         let base = k * m * q;
         for (r, row) in rows.iter_mut().enumerate() {
             let s = &x[base + r * q..base + (r + 1) * q];
-            *row = s.iter().enumerate().fold(0u64, |acc, (j, &b)| acc | ((b as u64) << j));
+            *row = s
+                .iter()
+                .enumerate()
+                .fold(0u64, |acc, (j, &b)| acc | ((b as u64) << j));
         }
         let rk = gf2_rank(&mut rows);
         if rk == full_rank {
@@ -168,8 +178,8 @@ mod tests {
             by_rank[gf2_rank(&mut rows)] += 1;
         }
         assert_eq!(by_rank[3], 168);
-        for r in 0..4 {
-            assert!((by_rank[r] as f64 / 512.0 - rank_probability(3, 3, r)).abs() < 1e-15);
+        for (r, &count) in by_rank.iter().enumerate() {
+            assert!((count as f64 / 512.0 - rank_probability(3, 3, r)).abs() < 1e-15);
         }
     }
 }

@@ -61,9 +61,17 @@ pub struct Serial {
 /// # Panics
 /// If `m < 2` or `x` is empty.
 pub fn serial(x: &[u8], m: usize) -> Serial {
-    assert!(m >= 2 && !x.is_empty(), "serial: m = {m} on {} bits", x.len());
+    assert!(
+        m >= 2 && !x.is_empty(),
+        "serial: m = {m} on {} bits",
+        x.len()
+    );
     let mi = m as i64;
-    let psi = [psi_square(x, mi), psi_square(x, mi - 1), psi_square(x, mi - 2)];
+    let psi = [
+        psi_square(x, mi),
+        psi_square(x, mi - 1),
+        psi_square(x, mi - 2),
+    ];
     let del1 = psi[0] - psi[1];
     let del2 = psi[0] - 2.0 * psi[1] + psi[2];
     Serial {
@@ -115,7 +123,13 @@ pub fn approximate_entropy(x: &[u8], m: usize) -> ApproximateEntropy {
     // χ² = 2n(ln 2 − ApEn) suffers cancellation for large n; since
     // φ(m) = (1/n) Σ c ln c − ln n, ApEn = (S_m − S_{m+1})/n with
     // S_m = Σ c ln c, which is computed without it.
-    let s = |m: usize| cyclic_counts(x, m).iter().filter(|&&c| c > 0).map(|&c| c as f64 * (c as f64).ln()).sum::<f64>();
+    let s = |m: usize| {
+        cyclic_counts(x, m)
+            .iter()
+            .filter(|&&c| c > 0)
+            .map(|&c| c as f64 * (c as f64).ln())
+            .sum::<f64>()
+    };
     let n = x.len() as f64;
     let chi_square = 2.0 * n * std::f64::consts::LN_2 - 2.0 * (s(m) - s(m + 1));
     ApproximateEntropy {

@@ -78,12 +78,19 @@ pub struct NonOverlapping {
 
 /// χ² and P-value from the block counts (SP 800-22 section 2.7.4 steps
 /// 3-5; statistics.md 2.7 and 3.7).
-pub fn non_overlapping_from_counts(template: &Template, block_len: usize, w: Vec<u64>) -> NonOverlapping {
+pub fn non_overlapping_from_counts(
+    template: &Template,
+    block_len: usize,
+    w: Vec<u64>,
+) -> NonOverlapping {
     let m = template.len() as i32;
     let mf = block_len as f64;
     let mu = (mf - m as f64 + 1.0) / 2f64.powi(m);
     let sigma2 = mf * (1.0 / 2f64.powi(m) - (2.0 * m as f64 - 1.0) / 2f64.powi(2 * m));
-    let chi_square = w.iter().map(|&x| (x as f64 - mu).powi(2) / sigma2).sum::<f64>();
+    let chi_square = w
+        .iter()
+        .map(|&x| (x as f64 - mu).powi(2) / sigma2)
+        .sum::<f64>();
     let n = w.len() as f64;
     NonOverlapping {
         template: template.to_text(),
@@ -119,7 +126,11 @@ pub fn count_non_overlapping_naive(block: &[u8], t: &Template) -> u64 {
 /// If the blocks are shorter than the template.
 pub fn non_overlapping(x: &[u8], t: &Template, blocks: usize) -> NonOverlapping {
     let m_len = x.len() / blocks;
-    assert!(m_len >= t.len(), "blocks of {m_len} bits for a {}-bit template", t.len());
+    assert!(
+        m_len >= t.len(),
+        "blocks of {m_len} bits for a {}-bit template",
+        t.len()
+    );
     let w = (0..blocks)
         .map(|j| count_non_overlapping_naive(&x[j * m_len..(j + 1) * m_len], t))
         .collect();
@@ -133,12 +144,19 @@ pub fn non_overlapping(x: &[u8], t: &Template, blocks: usize) -> NonOverlapping 
 ///
 /// # Panics
 /// If the templates differ in length or the blocks are shorter than them.
-pub fn non_overlapping_many(x: &[u8], templates: &[Template], blocks: usize) -> Vec<NonOverlapping> {
+pub fn non_overlapping_many(
+    x: &[u8],
+    templates: &[Template],
+    blocks: usize,
+) -> Vec<NonOverlapping> {
     let Some(first) = templates.first() else {
         return Vec::new();
     };
     let m = first.len();
-    assert!(templates.iter().all(|t| t.len() == m), "templates of mixed lengths");
+    assert!(
+        templates.iter().all(|t| t.len() == m),
+        "templates of mixed lengths"
+    );
     let m_len = x.len() / blocks;
     assert!(m_len >= m, "blocks of {m_len} bits for a {m}-bit template");
     let size = 1usize << m;
@@ -262,7 +280,10 @@ pub fn overlapping_from_counts(nu: [u64; 6], pi: [f64; 6]) -> Overlapping {
 /// block, or `Exact9x1032` is asked for other parameters.
 pub fn overlapping(x: &[u8], t: &Template, block_len: usize, table: OverlapTable) -> Overlapping {
     let m = t.len();
-    assert!(block_len >= m && x.len() >= block_len, "overlapping: bad sizes");
+    assert!(
+        block_len >= m && x.len() >= block_len,
+        "overlapping: bad sizes"
+    );
     let mut nu = [0u64; 6];
     let mask = (1usize << m) - 1;
     let tv = t.value();
@@ -283,7 +304,10 @@ pub fn overlapping(x: &[u8], t: &Template, block_len: usize, table: OverlapTable
             eta_probabilities(lambda / 2.0)
         }
         OverlapTable::Exact9x1032 => {
-            assert!(m == 9 && block_len == 1032, "exact table is for m = 9, M = 1032");
+            assert!(
+                m == 9 && block_len == 1032,
+                "exact table is for m = 9, M = 1032"
+            );
             EXACT_9_1032
         }
     };
@@ -314,7 +338,8 @@ mod tests {
     #[test]
     fn section_2_7_non_overlapping_nt2_from_counts() {
         let t = Template::parse("000000001").unwrap();
-        let r = non_overlapping_from_counts(&t, 131072, vec![259, 229, 271, 245, 272, 262, 259, 246]);
+        let r =
+            non_overlapping_from_counts(&t, 131072, vec![259, 229, 271, 245, 272, 262, 259, 246]);
         assert!((r.mu - 255.984375).abs() < 1e-12);
         assert!((r.sigma2 - 247.5).abs() < 1e-12);
         assert!((r.chi_square - 5.999377).abs() <= 5e-7);
@@ -359,11 +384,25 @@ mod tests {
     /// statistics.md 3.4: η formulas at η = 1.125 and η = 1.
     #[test]
     fn section_3_4_eta_probabilities() {
-        let want = [0.3246524674, 0.1826170129, 0.1426695413, 0.1066454821, 0.07714743986, 0.1662680564];
+        let want = [
+            0.3246524674,
+            0.1826170129,
+            0.1426695413,
+            0.1066454821,
+            0.07714743986,
+            0.1662680564,
+        ];
         for (a, b) in eta_probabilities(1.125).iter().zip(want) {
             assert!((a - b).abs() < 1e-9);
         }
-        let want = [0.3678794412, 0.1839397206, 0.1379547904, 0.0996340153, 0.0699354146, 0.1406566179];
+        let want = [
+            0.3678794412,
+            0.1839397206,
+            0.1379547904,
+            0.0996340153,
+            0.0699354146,
+            0.1406566179,
+        ];
         for (a, b) in eta_probabilities(1.0).iter().zip(want) {
             assert!((a - b).abs() < 1e-9);
         }

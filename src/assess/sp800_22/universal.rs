@@ -64,7 +64,11 @@ pub fn universal(x: &[u8], l: usize, q: usize) -> Universal {
     assert!(blocks > q, "universal: {blocks} blocks for Q = {q}");
     let k = blocks - q;
     let mut last = vec![0usize; 1 << l];
-    let value = |i: usize| x[i * l..(i + 1) * l].iter().fold(0usize, |a, &b| a << 1 | b as usize);
+    let value = |i: usize| {
+        x[i * l..(i + 1) * l]
+            .iter()
+            .fold(0usize, |a, &b| a << 1 | b as usize)
+    };
     for i in 1..=q {
         last[value(i - 1)] = i;
     }

@@ -23,10 +23,22 @@ pub const Z99: f64 = 2.576;
 
 /// Estimators of SP 800-90B section 6.3 not implemented, with the reason.
 pub const LEFT_OUT: [(&str, &str); 4] = [
-    ("multi most common in window prediction (6.3.7)", "definition not pinned down from a checked copy of SP 800-90B"),
-    ("lag prediction (6.3.8)", "definition not pinned down from a checked copy of SP 800-90B"),
-    ("multi Markov model with counting prediction (6.3.9)", "definition not pinned down from a checked copy of SP 800-90B"),
-    ("LZ78Y prediction (6.3.10)", "definition not pinned down from a checked copy of SP 800-90B"),
+    (
+        "multi most common in window prediction (6.3.7)",
+        "definition not pinned down from a checked copy of SP 800-90B",
+    ),
+    (
+        "lag prediction (6.3.8)",
+        "definition not pinned down from a checked copy of SP 800-90B",
+    ),
+    (
+        "multi Markov model with counting prediction (6.3.9)",
+        "definition not pinned down from a checked copy of SP 800-90B",
+    ),
+    (
+        "LZ78Y prediction (6.3.10)",
+        "definition not pinned down from a checked copy of SP 800-90B",
+    ),
 ];
 
 /// One estimator's result.
@@ -56,7 +68,10 @@ pub fn most_common_value<T: Ord + Copy>(samples: &[T]) -> (f64, f64, f64) {
     let mut best = 0usize;
     let mut i = 0;
     while i < v.len() {
-        let j = v[i..].iter().position(|x| *x != v[i]).map_or(v.len(), |k| i + k);
+        let j = v[i..]
+            .iter()
+            .position(|x| *x != v[i])
+            .map_or(v.len(), |k| i + k);
         best = best.max(j - i);
         i = j;
     }
@@ -104,7 +119,10 @@ pub fn collision(x: &[u8]) -> Estimate {
     // 2 + 2pq = X' with p >= 1/2: pq = (X' - 2)/2, p = 1/2 + sqrt(1/4 - pq)
     let pq = (xp - 2.0) / 2.0;
     let (p, note) = if !(0.0..=0.25).contains(&pq) {
-        (0.5, Some("no solution in [1/2, 1]; the estimate is 1 bit".to_string()))
+        (
+            0.5,
+            Some("no solution in [1/2, 1]; the estimate is 1 bit".to_string()),
+        )
     } else {
         (0.5 + (0.25 - pq).sqrt(), None)
     };
@@ -202,10 +220,18 @@ pub fn compression(x: &[u8]) -> Estimate {
             name,
             min_entropy: None,
             detail: String::new(),
-            note: Some(format!("needs more than {} samples ({} blocks of 6 after 1000 for the dictionary)", (D + 2) * B, 2)),
+            note: Some(format!(
+                "needs more than {} samples ({} blocks of 6 after 1000 for the dictionary)",
+                (D + 2) * B,
+                2
+            )),
         };
     }
-    let val = |i: usize| x[i * B..(i + 1) * B].iter().fold(0usize, |a, &b| a << 1 | b as usize);
+    let val = |i: usize| {
+        x[i * B..(i + 1) * B]
+            .iter()
+            .fold(0usize, |a, &b| a << 1 | b as usize)
+    };
     let mut dict = [0usize; 1 << B];
     for i in 1..=D {
         dict[val(i - 1)] = i;
@@ -229,7 +255,10 @@ pub fn compression(x: &[u8]) -> Estimate {
     };
     let lo = 1.0 / (1 << B) as f64;
     let (p, note) = if expect(lo) < xp {
-        (lo, Some("no solution in [2^-6, 1]; the estimate is 1 bit".to_string()))
+        (
+            lo,
+            Some("no solution in [2^-6, 1]; the estimate is 1 bit".to_string()),
+        )
     } else {
         // expect() decreases in p on [2^-6, 1]
         let (mut a, mut b) = (lo, 1.0);
@@ -415,7 +444,10 @@ pub fn tuple_stats_naive(x: &[u8], w: usize) -> (u64, u128) {
         *m.entry(t).or_default() += 1;
     }
     let max = m.values().copied().max().unwrap_or(0);
-    let pairs = m.values().map(|&c| c as u128 * (c as u128).saturating_sub(1) / 2).sum();
+    let pairs = m
+        .values()
+        .map(|&c| c as u128 * (c as u128).saturating_sub(1) / 2)
+        .sum();
     (max, pairs)
 }
 
@@ -468,8 +500,13 @@ pub fn lrs(x: &[u8], stats: &TupleStats) -> Estimate {
     let name = "longest repeated substring (6.3.6)";
     let l = x.len();
     let top = stats.max_count.len() - 1;
-    let u = (1..=top).find(|&w| stats.max_count[w] < TUPLE_CUTOFF).unwrap_or(top + 1);
-    let v = (1..=top).rev().find(|&w| stats.max_count[w] >= 2).unwrap_or(0);
+    let u = (1..=top)
+        .find(|&w| stats.max_count[w] < TUPLE_CUTOFF)
+        .unwrap_or(top + 1);
+    let v = (1..=top)
+        .rev()
+        .find(|&w| stats.max_count[w] >= 2)
+        .unwrap_or(0);
     if u > v {
         return Estimate {
             name,
@@ -535,7 +572,10 @@ pub fn assess_binary(x: &[u8]) -> Assessment {
         samples: x.len(),
         estimates,
         min_entropy: min,
-        left_out: LEFT_OUT.iter().map(|(a, b)| (a.to_string(), b.to_string())).collect(),
+        left_out: LEFT_OUT
+            .iter()
+            .map(|(a, b)| (a.to_string(), b.to_string()))
+            .collect(),
     }
 }
 
@@ -564,7 +604,10 @@ mod tests {
     fn collision_expectation_closed_form() {
         for p in [0.5, 0.6, 0.75, 0.9, 0.99] {
             let e = collision_expectation_as_printed(p);
-            assert!((e - (2.0 + 2.0 * p * (1.0 - p))).abs() < 1e-12, "p={p}: {e}");
+            assert!(
+                (e - (2.0 + 2.0 * p * (1.0 - p))).abs() < 1e-12,
+                "p={p}: {e}"
+            );
         }
     }
 

@@ -25,8 +25,12 @@ pub const fn apt_window(binary: bool) -> usize {
 }
 
 fn check_entropy(h: f64, max: f64) -> Result<(), Error> {
-    if !(h > 0.0 && h <= max) || !h.is_finite() {
-        return Err(Error::out_of_range("claimed entropy per sample", h, "must be in (0, bits per sample]"));
+    if !(h > 0.0 && h <= max && h.is_finite()) {
+        return Err(Error::out_of_range(
+            "claimed entropy per sample",
+            h,
+            "must be in (0, bits per sample]",
+        ));
     }
     Ok(())
 }
@@ -45,7 +49,11 @@ fn ln_binom_pmf(n: u64, k: u64, p: f64) -> f64 {
     let (nf, kf) = (n as f64, k as f64);
     let ln_c = ln_gamma(nf + 1.0) - ln_gamma(kf + 1.0) - ln_gamma(nf - kf + 1.0);
     let a = if k == 0 { 0.0 } else { kf * p.ln() };
-    let b = if k == n { 0.0 } else { (nf - kf) * (-p).ln_1p() };
+    let b = if k == n {
+        0.0
+    } else {
+        (nf - kf) * (-p).ln_1p()
+    };
     ln_c + a + b
 }
 
@@ -93,7 +101,10 @@ pub struct HealthOutcome {
 /// Repetition count test, sample by sample as SP 800-90B section 4.4.1
 /// words it (the oracle for the fast path). A failure is counted each time
 /// the run counter B reaches C.
-pub fn rct_naive<T: PartialEq + Copy>(samples: impl IntoIterator<Item = T>, cutoff: u64) -> HealthOutcome {
+pub fn rct_naive<T: PartialEq + Copy>(
+    samples: impl IntoIterator<Item = T>,
+    cutoff: u64,
+) -> HealthOutcome {
     let mut it = samples.into_iter();
     let mut out = HealthOutcome {
         cutoff,
@@ -164,9 +175,15 @@ pub fn rct_bits(bits: &Bits, cutoff: u64) -> HealthOutcome {
         let valid = (n - wi * 64).min(64) as u32;
         let full = wi * 64 + 64 <= n;
         let same = if val { w } else { !w };
-        let prefix = if full { same.trailing_ones() } else { same.trailing_ones().min(valid) };
+        let prefix = if full {
+            same.trailing_ones()
+        } else {
+            same.trailing_ones().min(valid)
+        };
         let suspicious = run + prefix as u64 >= cutoff
-            || (cutoff <= 64 && full && (has_ones_run(w, cutoff as u32) || has_ones_run(!w, cutoff as u32)))
+            || (cutoff <= 64
+                && full
+                && (has_ones_run(w, cutoff as u32) || has_ones_run(!w, cutoff as u32)))
             || (!full && cutoff <= 64);
         if !suspicious {
             if prefix == valid {
@@ -174,7 +191,11 @@ pub fn rct_bits(bits: &Bits, cutoff: u64) -> HealthOutcome {
             } else {
                 // the last run of the word: length of the top segment
                 let top = (w >> (valid - 1)) & 1 == 1;
-                let seg = if top { w.leading_ones() } else { w.leading_zeros() };
+                let seg = if top {
+                    w.leading_ones()
+                } else {
+                    w.leading_zeros()
+                };
                 val = top;
                 run = seg as u64;
             }
@@ -191,7 +212,8 @@ pub fn rct_bits(bits: &Bits, cutoff: u64) -> HealthOutcome {
             }
             if run == cutoff {
                 out.failures += 1;
-                out.first_failure.get_or_insert((wi * 64 + j as usize) as u64);
+                out.first_failure
+                    .get_or_insert((wi * 64 + j as usize) as u64);
             }
         }
     }
@@ -317,7 +339,11 @@ mod tests {
     #[test]
     fn section_5_1_apt_false_alarm() {
         let c = apt_cutoff(1.0, 1, 1024).unwrap();
-        let tail = |n: u64, from: u64| (from..=n).map(|k| ln_binom_pmf(n, k, 0.5).exp()).sum::<f64>();
+        let tail = |n: u64, from: u64| {
+            (from..=n)
+                .map(|k| ln_binom_pmf(n, k, 0.5).exp())
+                .sum::<f64>()
+        };
         let one_plus = tail(1023, c - 1);
         let plain = tail(1024, c);
         assert!((one_plus / 9.64e-7 - 1.0).abs() < 5e-3, "{one_plus:e}");
