@@ -486,6 +486,60 @@ fn section_2_16_appendix_b_pi() {
     );
 }
 
+/// The battery with its default parameters on π (SP 800-22's rules pick
+/// the Appendix B configuration at n = 10^6 for every test except block
+/// frequency, whose rule M > 0.01 n gives M = 10001 instead of 128): the
+/// same P-values as statistics.md 2.16, π column.
+#[test]
+fn section_2_16_battery_defaults_on_pi() {
+    use sluice::assess::sp800_22::{run_battery, Config, Outcome, TestId};
+    let r = run_battery(&pi1m().bits, &Config::default());
+    let p = |t: TestId, label: &str| {
+        let rep = r.iter().find(|x| x.test == t).unwrap();
+        match &rep.outcome {
+            Outcome::Done { p_values } => {
+                p_values.iter().find(|v| v.label == label).unwrap().p_value
+            }
+            Outcome::NotApplicable { reason } => panic!("{t:?}: {reason}"),
+        }
+    };
+    let rows = [
+        (TestId::Frequency, "", 0.5782108548),
+        (TestId::CumulativeSums, "forward", 0.6283080854),
+        (TestId::CumulativeSums, "backward", 0.6633686090),
+        (TestId::Runs, "", 0.4192684204),
+        (TestId::LongestRun, "", 0.02438969853),
+        (TestId::Spectral, "", 0.01018582615),
+        (TestId::NonOverlappingTemplate, "000000001", 0.1657574575),
+        (TestId::OverlappingTemplate, "", 0.2968971234),
+        (TestId::Universal, "", 0.6690124381),
+        (TestId::ApproximateEntropy, "", 0.3615949318),
+        (TestId::RandomExcursions, "x=+1", 0.8441431008),
+        (TestId::RandomExcursionsVariant, "x=-1", 0.7609663253),
+        (TestId::LinearComplexity, "", 0.2554745741),
+        (TestId::Serial, "P1", 0.1430052396),
+        (TestId::Serial, "P2", 0.03435359198),
+    ];
+    for (t, label, want) in rows {
+        check(
+            &format!("battery {t:?} {label}"),
+            p(t, label),
+            want,
+            None,
+            0.0,
+        );
+    }
+    // rank: see the note on the rank column in `appendix_b`
+    check_rel(
+        "battery rank",
+        p(TestId::Rank, ""),
+        0.08355314500,
+        Some(0.083553),
+        5e-7,
+        1e-7,
+    );
+}
+
 /// statistics.md 2.16, e column (Appendix B, from memory). The printed
 /// cusum values are 2e-7 to 5e-7 above the exact ones (statistics.md
 /// section 6 item 10): compared with tolerance 1e-6, and the recomputed

@@ -34,8 +34,15 @@ pub struct AssessArgs {
 #[derive(Subcommand)]
 enum What {
     /// Health tests and min-entropy estimates of raw bits (SP 800-90B).
+    ///
+    /// Exit status: 0 when the health tests pass and no estimate is below
+    /// the claim, 1 when a health test fails or an estimate is below the
+    /// claim, 2 on an error.
     Raw(RawArgs),
     /// The SP 800-22 battery on extracted output, over one or many sequences.
+    ///
+    /// Exit status: 0 when no P-value kind is flagged, 1 when one is (some
+    /// are expected by chance; the report says how many), 2 on an error.
     Output(OutputArgs),
 }
 
