@@ -23,6 +23,7 @@
 //! run-time detection of those kernels, so the portable path can be tested.
 
 #![warn(missing_docs)]
+pub mod assess;
 pub mod bits;
 pub mod certify;
 pub mod extract;

@@ -5,6 +5,7 @@
 //! counts as success; `--json` prints one JSON document on standard output
 //! for scripts; progress bars appear only on a terminal.
 
+mod assess;
 mod auto;
 mod bench;
 mod certify;
@@ -38,6 +39,8 @@ enum Command {
     Plan(plan::PlanArgs),
     /// Certify the record of a CHSH Bell test (or plan a run)
     Certify(certify::CertifyArgs),
+    /// Statistical checks of raw input (SP 800-90B) and output (SP 800-22)
+    Assess(assess::AssessArgs),
     /// Run the main job on a built-in simulated source, start to finish
     Demo(demo::DemoArgs),
     /// Check the published test vectors
@@ -65,6 +68,7 @@ pub fn main() -> ExitCode {
         Command::Verify(a) => extract::run_verify(a),
         Command::Plan(a) => plan::run(a),
         Command::Certify(a) => certify::run(a),
+        Command::Assess(a) => assess::run(a),
         Command::Vectors(a) => vectors::run(a),
         Command::Demo(a) => demo::run(a),
         Command::Bench(a) => bench::run(a),

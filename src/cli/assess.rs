@@ -1,0 +1,839 @@
+//! `sluice assess`: statistical checks of raw input (SP 800-90B health
+//! tests and min-entropy estimates) and of extracted output (the SP 800-22
+//! battery over one or many sequences). All numbers come from
+//! `sluice::assess`; this module reads files, prints and plots.
+
+use crate::cli::common;
+use anyhow::{bail, Context};
+use clap::{Args, Subcommand, ValueEnum};
+use rayon::prelude::*;
+use serde::Serialize;
+use sluice::assess::many::{self, Summary};
+use sluice::assess::sp800_22::{self, Outcome, TestId, TestReport};
+use sluice::assess::sp800_90b::{estimators, health};
+use sluice::bits::{io, BitOrder, Bits, Format};
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+const CAUTION_TESTS: &str =
+    "caution: statistical tests cannot certify randomness; only the entropy \
+certification and the extractor's proof do.";
+const CAUTION_RAW: &str =
+    "caution: an estimate at or above the claimed figure proves nothing about \
+an adversary (who may know more than any statistic sees); a figure far below it is a red flag. \
+Output is only as good as the entropy claim and the assumptions of its certification; defer to the \
+applicable standards and evaluators.";
+
+/// Statistical checks of raw input or of extracted output.
+#[derive(Args)]
+pub struct AssessArgs {
+    #[command(subcommand)]
+    what: What,
+}
+
+#[derive(Subcommand)]
+enum What {
+    /// Health tests and min-entropy estimates of raw bits (SP 800-90B).
+    ///
+    /// Exit status: 0 when the health tests pass and no estimate is below
+    /// the claim, 1 when a health test fails or an estimate is below the
+    /// claim, 2 on an error.
+    Raw(RawArgs),
+    /// The SP 800-22 battery on extracted output, over one or many sequences.
+    ///
+    /// Exit status: 0 when no P-value kind is flagged, 1 when one is (some
+    /// are expected by chance; the report says how many), 2 on an error.
+    Output(OutputArgs),
+}
+
+/// File format of the input.
+#[derive(Clone, Copy, ValueEnum)]
+enum FormatArg {
+    /// Packed bytes, eight bits per byte.
+    Packed,
+    /// '0'/'1' characters; white space ignored.
+    Ascii,
+    /// Hexadecimal digits of packed bytes; white space ignored.
+    Hex,
+}
+
+/// Order of the bits inside a byte.
+#[derive(Clone, Copy, ValueEnum)]
+enum OrderArg {
+    /// First bit = most significant bit of the byte.
+    Msb,
+    /// First bit = least significant bit of the byte.
+    Lsb,
+}
+
+#[derive(Args)]
+struct InputOpts {
+    /// Input file (`-` for standard input).
+    file: PathBuf,
+    /// Input file format.
+    #[arg(
+        long,
+        value_enum,
+        default_value = "packed",
+        value_name = "packed|ascii|hex"
+    )]
+    format: FormatArg,
+    /// Bit order inside packed bytes.
+    #[arg(long, value_enum, default_value = "msb", value_name = "msb|lsb")]
+    bit_order: OrderArg,
+    /// Use only the first N bits of the input.
+    #[arg(long, value_name = "N")]
+    input_bits: Option<usize>,
+    /// Print one JSON document instead of text.
+    #[arg(long)]
+    json: bool,
+    /// Also draw a picture of the results into this SVG file.
+    #[arg(long, value_name = "FILE.svg")]
+    plot: Option<PathBuf>,
+}
+
+#[derive(Args)]
+struct RawArgs {
+    #[command(flatten)]
+    input: InputOpts,
+    /// Claimed (or certified) min-entropy per raw bit, in (0, 1]; sets the
+    /// health-test cutoffs and is compared with the estimates.
+    #[arg(long, value_name = "H")]
+    claimed_entropy: Option<f64>,
+    /// Samples given to the estimators (the first ones of the input).
+    #[arg(long, value_name = "N", default_value_t = 1_000_000)]
+    estimate_samples: usize,
+}
+
+#[derive(Args)]
+struct OutputArgs {
+    #[command(flatten)]
+    input: InputOpts,
+    /// Number of sequences to test (default: as many as fit).
+    #[arg(long, value_name = "N")]
+    sequences: Option<usize>,
+    /// Bits per sequence (default: 1,000,000, or the whole input if shorter).
+    #[arg(long, value_name = "B")]
+    sequence_bits: Option<usize>,
+}
+
+/// Runs `sluice assess`.
+pub fn run(args: AssessArgs) -> anyhow::Result<ExitCode> {
+    match args.what {
+        What::Raw(a) => run_raw(a),
+        What::Output(a) => run_output(a),
+    }
+}
+
+fn read_input(o: &InputOpts) -> anyhow::Result<Bits> {
+    let format = match o.format {
+        FormatArg::Packed => Format::Packed,
+        FormatArg::Ascii => Format::Ascii,
+        FormatArg::Hex => Format::Hex,
+    };
+    let order = match o.bit_order {
+        OrderArg::Msb => BitOrder::Msb,
+        OrderArg::Lsb => BitOrder::Lsb,
+    };
+    let bits = io::read_bits(&o.file, format, order, o.input_bits)
+        .with_context(|| format!("reading the input {}", o.file.display()))?;
+    if bits.is_empty() {
+        bail!("{}: the input holds no bits", o.file.display());
+    }
+    Ok(bits)
+}
+
+// ---------------------------------------------------------------- raw
+
+#[derive(Serialize)]
+struct RawReport {
+    file: String,
+    bits: usize,
+    claimed_entropy: Option<f64>,
+    health_entropy: f64,
+    health_entropy_source: &'static str,
+    repetition_count: health::HealthOutcome,
+    adaptive_proportion: health::HealthOutcome,
+    adaptive_proportion_window: usize,
+    health_passed: bool,
+    estimator_samples: usize,
+    assessment: estimators::Assessment,
+    comparison: String,
+    red_flag: bool,
+    notes: Vec<String>,
+    caution: &'static str,
+}
+
+fn run_raw(a: RawArgs) -> anyhow::Result<ExitCode> {
+    if let Some(h) = a.claimed_entropy {
+        if !(h > 0.0 && h <= 1.0) {
+            bail!("--claimed-entropy {h}: must be in (0, 1] bits per raw bit");
+        }
+    }
+    if a.estimate_samples < 2 {
+        bail!(
+            "--estimate-samples {}: at least 2 samples are needed",
+            a.estimate_samples
+        );
+    }
+    let bits = read_input(&a.input)?;
+    let n = bits.len();
+    let mut notes = Vec::new();
+
+    let k = n.min(a.estimate_samples);
+    if k < 1_000_000 {
+        notes.push(format!(
+            "the estimators saw {k} samples; SP 800-90B asks for at least 1,000,000"
+        ));
+    }
+    let pb = common::progress(7, "estimating min-entropy");
+    let x = sp800_22::bit_values(&bits.slice(0, k));
+    pb.inc(1);
+    let assessment = estimators::assess_binary(&x);
+    pb.inc(6);
+    pb.finish_and_clear();
+
+    let (health_h, source) = match (a.claimed_entropy, assessment.min_entropy) {
+        (Some(h), _) => (h, "claimed"),
+        (None, Some(h)) if h > 0.0 => (h, "estimated (no claim given)"),
+        _ => (1.0, "1 bit (no claim, no usable estimate)"),
+    };
+    let rct_c = health::rct_cutoff(health_h, 1)?;
+    let apt_c = health::apt_cutoff(health_h, 1, health::apt_window(true))?;
+    let rct = health::rct_bits(&bits, rct_c);
+    let apt = health::apt_bits(&bits, apt_c);
+    let health_passed = rct.failures == 0 && apt.failures == 0;
+
+    let est = assessment.min_entropy;
+    let (comparison, red_flag) = match (a.claimed_entropy, est) {
+        (Some(c), Some(e)) if e < c => (
+            format!(
+                "RED FLAG: the estimate {e:.6} bits per bit is below the claimed {c:.6}; \
+                 the claim (or the source) needs review"
+            ),
+            true,
+        ),
+        (Some(c), Some(e)) => (
+            format!(
+                "the estimate {e:.6} bits per bit is at or above the claimed {c:.6}; this is \
+                 consistent with the claim but proves nothing about an adversary"
+            ),
+            false,
+        ),
+        (None, Some(e)) => (
+            format!("no claim given; the estimate is {e:.6} bits per bit (a statistic, not a certificate)"),
+            false,
+        ),
+        (_, None) => ("no estimator applied to this input".to_string(), false),
+    };
+    let report = RawReport {
+        file: a.input.file.display().to_string(),
+        bits: n,
+        claimed_entropy: a.claimed_entropy,
+        health_entropy: health_h,
+        health_entropy_source: source,
+        repetition_count: rct,
+        adaptive_proportion: apt,
+        adaptive_proportion_window: health::apt_window(true),
+        health_passed,
+        estimator_samples: k,
+        assessment,
+        comparison,
+        red_flag,
+        notes,
+        caution: CAUTION_RAW,
+    };
+    if let Some(p) = &a.input.plot {
+        plot_raw(p, &report).with_context(|| format!("drawing {}", p.display()))?;
+    }
+    if a.input.json {
+        common::print_json(&report)?;
+    } else {
+        print_raw(&report);
+    }
+    Ok(if health_passed && !red_flag {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    })
+}
+
+fn health_line(name: &str, o: &health::HealthOutcome) -> String {
+    match o.first_failure {
+        None => format!("  {name:<28} cutoff {:>5}  pass", o.cutoff),
+        Some(at) => format!(
+            "  {name:<28} cutoff {:>5}  FAIL: {} failure(s), the first at bit {at}",
+            o.cutoff, o.failures
+        ),
+    }
+}
+
+fn print_raw(r: &RawReport) {
+    println!("sluice assess raw: {} ({} bits)", r.file, r.bits);
+    println!(
+        "health tests (SP 800-90B 4.4, alpha = 2^-20), cutoffs from H = {} ({}):",
+        r.health_entropy, r.health_entropy_source
+    );
+    println!("{}", health_line("repetition count", &r.repetition_count));
+    println!(
+        "{}",
+        health_line(
+            &format!("adaptive proportion (W={})", r.adaptive_proportion_window),
+            &r.adaptive_proportion
+        )
+    );
+    println!(
+        "min-entropy estimates (SP 800-90B 6.3, non-IID track, binary samples; first {} bits):",
+        r.estimator_samples
+    );
+    for e in &r.assessment.estimates {
+        match e.min_entropy {
+            Some(h) => println!("  {:<36} {h:.6}   {}", e.name, e.detail),
+            None => println!(
+                "  {:<36} n/a      {}",
+                e.name,
+                e.note.as_deref().unwrap_or("")
+            ),
+        }
+    }
+    match r.assessment.min_entropy {
+        Some(h) => println!("  {:<36} {h:.6} bits per bit", "minimum (the estimate)"),
+        None => println!("  minimum: none (no estimator applied)"),
+    }
+    println!("left out (not pinned down from a checked copy of the standard):");
+    for (name, _) in &r.assessment.left_out {
+        println!("  {name}");
+    }
+    println!("comparison: {}", r.comparison);
+    for n in &r.notes {
+        println!("note: {n}");
+    }
+    println!(
+        "overall: health tests {}; {}",
+        if r.health_passed { "passed" } else { "FAILED" },
+        if r.red_flag {
+            "estimate below the claim"
+        } else {
+            "no red flag"
+        }
+    );
+    println!("{}", r.caution);
+}
+
+// ------------------------------------------------------------- output
+
+#[derive(Serialize)]
+struct KindSummary {
+    test: TestId,
+    section: &'static str,
+    label: String,
+    #[serde(flatten)]
+    summary: Summary,
+    /// The P-value itself, when one sequence was tested.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    p_value: Option<f64>,
+    flagged: bool,
+}
+
+#[derive(Serialize)]
+struct NotRun {
+    test: TestId,
+    section: &'static str,
+    sequences: usize,
+    reason: String,
+}
+
+#[derive(Serialize)]
+struct OutputReport {
+    file: String,
+    bits: usize,
+    sequences: usize,
+    sequence_bits: usize,
+    alpha: f64,
+    parameters: Vec<(TestId, String)>,
+    kinds: Vec<KindSummary>,
+    not_applicable: Vec<NotRun>,
+    /// With one sequence: its reports in full.
+    single: Option<Vec<TestReport>>,
+    flagged: usize,
+    overall: String,
+    caution: &'static str,
+}
+
+fn run_output(a: OutputArgs) -> anyhow::Result<ExitCode> {
+    let bits = read_input(&a.input)?;
+    let n = bits.len();
+    let (count, len) = match (a.sequences, a.sequence_bits) {
+        (Some(0), _) => bail!("--sequences 0: at least one sequence is needed"),
+        (_, Some(0)) => bail!("--sequence-bits 0: a sequence needs bits"),
+        (Some(s), Some(b)) => (s, b),
+        (Some(s), None) => (s, n / s),
+        (None, Some(b)) => (n / b, b),
+        (None, None) => {
+            let b = n.min(1_000_000);
+            (n / b, b)
+        }
+    };
+    if count == 0 || len == 0 || count.checked_mul(len).is_none_or(|t| t > n) {
+        bail!(
+            "{}: {count} sequences of {len} bits need {} bits, but the input holds {n}",
+            a.input.file.display(),
+            count as u128 * len as u128
+        );
+    }
+    let cfg = sp800_22::Config::default();
+    let pb = common::progress(count as u64, "running the SP 800-22 battery");
+    let reports: Vec<Vec<TestReport>> = (0..count)
+        .into_par_iter()
+        .map(|i| {
+            let r = sp800_22::run_battery(&bits.slice(i * len, len), &cfg);
+            pb.inc(1);
+            r
+        })
+        .collect();
+    pb.finish_and_clear();
+    let report = summarise_output(&a.input.file, n, count, len, reports);
+    if let Some(p) = &a.input.plot {
+        plot_output(p, &report).with_context(|| format!("drawing {}", p.display()))?;
+    }
+    if a.input.json {
+        common::print_json(&report)?;
+    } else {
+        print_output(&report);
+    }
+    Ok(if report.flagged == 0 {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    })
+}
+
+fn summarise_output(
+    file: &Path,
+    n: usize,
+    count: usize,
+    len: usize,
+    reports: Vec<Vec<TestReport>>,
+) -> OutputReport {
+    let alpha = sp800_22::ALPHA;
+    let mut kinds = Vec::new();
+    let mut not_applicable = Vec::new();
+    let mut parameters = Vec::new();
+    for (ti, test) in TestId::ALL.iter().enumerate() {
+        // collect P-values per label, in first-seen order
+        let mut labels: Vec<String> = Vec::new();
+        let mut values: Vec<Vec<f64>> = Vec::new();
+        let mut na: Option<(usize, String)> = None;
+        for r in &reports {
+            let t = &r[ti];
+            debug_assert_eq!(t.test, *test);
+            match &t.outcome {
+                Outcome::Done { p_values } => {
+                    for pv in p_values {
+                        let k = match labels.iter().position(|l| *l == pv.label) {
+                            Some(k) => k,
+                            None => {
+                                labels.push(pv.label.clone());
+                                values.push(Vec::new());
+                                labels.len() - 1
+                            }
+                        };
+                        values[k].push(pv.p_value);
+                    }
+                }
+                Outcome::NotApplicable { reason } => {
+                    let e = na.get_or_insert((0, reason.clone()));
+                    e.0 += 1;
+                }
+            }
+        }
+        if let Some(first) = reports.first() {
+            parameters.push((*test, first[ti].parameters.clone()));
+        }
+        for (label, v) in labels.into_iter().zip(values) {
+            let summary = many::summarise(&v, alpha);
+            let flagged = !summary.proportion_ok || summary.uniform_ok == Some(false);
+            kinds.push(KindSummary {
+                test: *test,
+                section: test.section(),
+                label,
+                summary,
+                p_value: (count == 1).then_some(v[0]),
+                flagged: count > 1 && flagged || count == 1 && v[0] < alpha,
+            });
+        }
+        if let Some((k, reason)) = na {
+            not_applicable.push(NotRun {
+                test: *test,
+                section: test.section(),
+                sequences: k,
+                reason,
+            });
+        }
+    }
+    let flagged = kinds.iter().filter(|k| k.flagged).count();
+    let overall = if kinds.is_empty() {
+        "no test applied to sequences of this length".to_string()
+    } else if flagged == 0 {
+        format!("no test flagged ({} P-value kinds checked)", kinds.len())
+    } else {
+        format!(
+            "{flagged} of {} P-value kinds flagged; at this level about {:.1} are expected to be flagged \
+             by chance alone, so look at which ones and rerun on fresh data",
+            kinds.len(),
+            expected_flags(kinds.len(), count)
+        )
+    };
+    OutputReport {
+        file: file.display().to_string(),
+        bits: n,
+        sequences: count,
+        sequence_bits: len,
+        alpha,
+        parameters,
+        kinds,
+        not_applicable,
+        single: if count == 1 {
+            reports.into_iter().next()
+        } else {
+            None
+        },
+        flagged,
+        overall,
+        caution: CAUTION_TESTS,
+    }
+}
+
+/// Expected number of kinds flagged by chance: α per kind for one
+/// sequence; for many, the band's binomial tail plus the uniformity
+/// threshold (the two are close to independent).
+fn expected_flags(kinds: usize, sequences: usize) -> f64 {
+    let per = if sequences == 1 {
+        sp800_22::ALPHA
+    } else {
+        many::chance_outside_interval(sp800_22::ALPHA, sequences) + many::UNIFORMITY_THRESHOLD
+    };
+    kinds as f64 * per
+}
+
+fn print_output(r: &OutputReport) {
+    println!(
+        "sluice assess output: {} ({} bits), {} sequence(s) of {} bits, alpha = {}",
+        r.file, r.bits, r.sequences, r.sequence_bits, r.alpha
+    );
+    if r.sequences == 1 {
+        println!(
+            "{:<34} {:>10}  result",
+            "test (SP 800-22 section)", "P-value"
+        );
+    } else {
+        println!(
+            "{:<34} {:>9} {:>21} {:>11}  result",
+            "test (SP 800-22 section)", "passed", "acceptable proportion", "uniformity"
+        );
+    }
+    for test in TestId::ALL {
+        let ks: Vec<&KindSummary> = r.kinds.iter().filter(|k| k.test == test).collect();
+        let title = format!("{} ({})", test.name(), test.section());
+        if let Some(na) = r.not_applicable.iter().find(|x| x.test == test) {
+            if ks.is_empty() {
+                println!("{title:<34} not applicable: {}", na.reason);
+                continue;
+            }
+            println!(
+                "{title:<34} not applicable in {} sequence(s): {}",
+                na.sequences, na.reason
+            );
+        }
+        if ks.len() > 4 {
+            let bad: Vec<&&KindSummary> = ks.iter().filter(|k| k.flagged).collect();
+            println!(
+                "{title:<34} {} P-value kinds, {} flagged",
+                ks.len(),
+                bad.len()
+            );
+            for k in bad {
+                print_kind(&format!("  {}", k.label), k, r.sequences);
+            }
+        } else {
+            for k in ks {
+                let name = if k.label.is_empty() {
+                    title.clone()
+                } else {
+                    format!("{title} {}", k.label)
+                };
+                print_kind(&name, k, r.sequences);
+            }
+        }
+    }
+    println!("overall: {}", r.overall);
+    println!("{}", r.caution);
+}
+
+fn print_kind(name: &str, k: &KindSummary, sequences: usize) {
+    let s = &k.summary;
+    let verdict = if k.flagged { "FLAGGED" } else { "ok" };
+    if sequences == 1 {
+        println!(
+            "{name:<34} {:>10.6}  {verdict}",
+            k.p_value.unwrap_or(f64::NAN)
+        );
+    } else {
+        let uni = match s.uniformity {
+            Some((_, p)) => format!("{p:.6}"),
+            None => "n/a".to_string(),
+        };
+        println!(
+            "{name:<34} {:>4}/{:<4} {:>10.4} .. {:<8.4} {uni:>11}  {verdict}",
+            s.passed,
+            s.sequences,
+            s.interval.0,
+            s.interval.1.min(1.0),
+        );
+    }
+}
+
+// -------------------------------------------------------------- plots
+
+fn plot_err<E: std::fmt::Debug>(e: E) -> anyhow::Error {
+    anyhow::anyhow!("{e:?}")
+}
+
+fn plot_output(path: &Path, r: &OutputReport) -> anyhow::Result<()> {
+    use plotters::prelude::*;
+    let root = SVGBackend::new(path, (1000, 760)).into_drawing_area();
+    root.fill(&WHITE).map_err(plot_err)?;
+    let (top, bottom) = root.split_vertically(360);
+
+    // P-value histogram, all kinds and sequences pooled.
+    let mut bins = [0u64; 10];
+    for k in &r.kinds {
+        for (b, c) in bins.iter_mut().zip(k.summary.bins) {
+            *b += c;
+        }
+    }
+    let total: u64 = bins.iter().sum();
+    let ymax = (*bins.iter().max().unwrap_or(&1)).max(1) as f64 * 1.2;
+    let mut ch = ChartBuilder::on(&top)
+        .caption(
+            format!(
+                "P-values of all tests ({} values, {} sequence(s) of {} bits)",
+                total, r.sequences, r.sequence_bits
+            ),
+            ("sans-serif", 18),
+        )
+        .margin(12)
+        .x_label_area_size(36)
+        .y_label_area_size(60)
+        .build_cartesian_2d(0f64..1f64, 0f64..ymax)
+        .map_err(plot_err)?;
+    ch.configure_mesh()
+        .x_desc("P-value (10 bins)")
+        .y_desc("count")
+        .disable_x_mesh()
+        .draw()
+        .map_err(plot_err)?;
+    ch.draw_series(bins.iter().enumerate().map(|(i, &c)| {
+        let x0 = i as f64 / 10.0;
+        Rectangle::new(
+            [(x0 + 0.005, 0.0), (x0 + 0.095, c as f64)],
+            BLUE.mix(0.5).filled(),
+        )
+    }))
+    .map_err(plot_err)?
+    .label("observed")
+    .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 12, y + 5)], BLUE.mix(0.5).filled()));
+    let expect = total as f64 / 10.0;
+    ch.draw_series(LineSeries::new(
+        [(0.0, expect), (1.0, expect)],
+        BLACK.stroke_width(2),
+    ))
+    .map_err(plot_err)?
+    .label("expected if uniform")
+    .legend(|(x, y)| PathElement::new([(x, y), (x + 12, y)], BLACK.stroke_width(2)));
+    ch.configure_series_labels()
+        .background_style(WHITE.mix(0.8))
+        .border_style(BLACK)
+        .position(SeriesLabelPosition::UpperRight)
+        .draw()
+        .map_err(plot_err)?;
+
+    // Per-kind pass proportions (or P-values for one sequence).
+    let n = r.kinds.len().max(1);
+    if r.sequences > 1 {
+        let (lo, hi) = many::proportion_interval(r.alpha, r.sequences);
+        let ymin = r
+            .kinds
+            .iter()
+            .map(|k| k.summary.proportion)
+            .fold(lo, f64::min)
+            - 0.02;
+        let mut ch = ChartBuilder::on(&bottom)
+            .caption(
+                "Pass proportion per test and P-value kind, with the acceptance band (SP 800-22 4.2.1)",
+                ("sans-serif", 18),
+            )
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(60)
+            .build_cartesian_2d(0f64..n as f64, ymin.max(0.0)..1.012f64)
+            .map_err(plot_err)?;
+        ch.configure_mesh()
+            .x_desc("P-value kind, grouped by test (SP 800-22 section numbers at the top)")
+            .y_desc("proportion passing")
+            .disable_x_mesh()
+            .draw()
+            .map_err(plot_err)?;
+        ch.draw_series(std::iter::once(Rectangle::new(
+            [(0.0, lo), (n as f64, hi.min(1.005))],
+            GREEN.mix(0.15).filled(),
+        )))
+        .map_err(plot_err)?
+        .label(format!("acceptable range [{lo:.4}, {:.4}] for all {} sequences (kinds run on fewer have wider ranges)", hi.min(1.0), r.sequences))
+        .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 12, y + 5)], GREEN.mix(0.3).filled()));
+        ch.draw_series(LineSeries::new(
+            [(0.0, lo), (n as f64, lo)],
+            GREEN.stroke_width(2),
+        ))
+        .map_err(plot_err)?;
+        // thin separators and section numbers between tests
+        let mut starts: Vec<(usize, &str)> = Vec::new();
+        for (i, k) in r.kinds.iter().enumerate() {
+            if i == 0 || r.kinds[i - 1].test != k.test {
+                starts.push((i, k.section));
+            }
+        }
+        for (j, &(i, sec)) in starts.iter().enumerate() {
+            let width = starts.get(j + 1).map_or(r.kinds.len(), |s| s.0) - i;
+            ch.draw_series(LineSeries::new(
+                [(i as f64, ymin.max(0.0)), (i as f64, 1.005)],
+                BLACK.mix(0.25),
+            ))
+            .map_err(plot_err)?;
+            if width < 5 {
+                continue; // no room for a label
+            }
+            ch.draw_series(std::iter::once(Text::new(
+                sec.to_string(),
+                (i as f64 + 0.3, 1.003),
+                ("sans-serif", 11).into_font(),
+            )))
+            .map_err(plot_err)?;
+        }
+        ch.draw_series(r.kinds.iter().enumerate().map(|(i, k)| {
+            let c = if k.flagged {
+                RED.filled()
+            } else {
+                BLUE.filled()
+            };
+            Circle::new((i as f64 + 0.5, k.summary.proportion), 3, c)
+        }))
+        .map_err(plot_err)?
+        .label("proportion (red: flagged)")
+        .legend(|(x, y)| Circle::new((x + 6, y), 3, BLUE.filled()));
+        ch.configure_series_labels()
+            .background_style(WHITE.mix(0.8))
+            .border_style(BLACK)
+            .position(SeriesLabelPosition::LowerLeft)
+            .draw()
+            .map_err(plot_err)?;
+    } else {
+        let mut ch = ChartBuilder::on(&bottom)
+            .caption(
+                "P-value per test and P-value kind (one sequence); line: alpha = 0.01",
+                ("sans-serif", 18),
+            )
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(60)
+            .build_cartesian_2d(0f64..n as f64, 0f64..1f64)
+            .map_err(plot_err)?;
+        ch.configure_mesh()
+            .x_desc("P-value kind (tests in SP 800-22 order)")
+            .y_desc("P-value")
+            .disable_x_mesh()
+            .draw()
+            .map_err(plot_err)?;
+        ch.draw_series(LineSeries::new(
+            [(0.0, r.alpha), (n as f64, r.alpha)],
+            RED.stroke_width(2),
+        ))
+        .map_err(plot_err)?;
+        ch.draw_series(r.kinds.iter().enumerate().map(|(i, k)| {
+            let c = if k.flagged {
+                RED.filled()
+            } else {
+                BLUE.filled()
+            };
+            Circle::new((i as f64 + 0.5, k.p_value.unwrap_or(0.0)), 3, c)
+        }))
+        .map_err(plot_err)?;
+    }
+    root.present().map_err(plot_err)?;
+    Ok(())
+}
+
+fn plot_raw(path: &Path, r: &RawReport) -> anyhow::Result<()> {
+    use plotters::prelude::*;
+    let root = SVGBackend::new(path, (900, 480)).into_drawing_area();
+    root.fill(&WHITE).map_err(plot_err)?;
+    let est: Vec<(&str, f64)> = r
+        .assessment
+        .estimates
+        .iter()
+        .filter_map(|e| e.min_entropy.map(|h| (e.name, h)))
+        .collect();
+    let n = est.len().max(1);
+    let mut ch = ChartBuilder::on(&root)
+        .caption(
+            "Min-entropy estimates per bit (SP 800-90B 6.3)",
+            ("sans-serif", 18),
+        )
+        .margin(14)
+        .x_label_area_size(60)
+        .y_label_area_size(60)
+        .build_cartesian_2d((0..n).into_segmented(), 0f64..1.05f64)
+        .map_err(plot_err)?;
+    ch.configure_mesh()
+        .disable_x_mesh()
+        .y_desc("bits per bit")
+        .x_labels(n)
+        .x_label_formatter(&|v| match v {
+            SegmentValue::CenterOf(i) => est
+                .get(*i)
+                .map(|e| e.0.split(" (").next().unwrap_or("").to_string())
+                .unwrap_or_default(),
+            _ => String::new(),
+        })
+        .draw()
+        .map_err(plot_err)?;
+    ch.draw_series(est.iter().enumerate().map(|(i, &(_, h))| {
+        let mut bar = Rectangle::new(
+            [
+                (SegmentValue::Exact(i), 0.0),
+                (SegmentValue::Exact(i + 1), h),
+            ],
+            BLUE.mix(0.5).filled(),
+        );
+        bar.set_margin(0, 0, 12, 12);
+        bar
+    }))
+    .map_err(plot_err)?;
+    if let Some(c) = r.claimed_entropy {
+        ch.draw_series(LineSeries::new(
+            [(SegmentValue::Exact(0), c), (SegmentValue::Exact(n), c)],
+            RED.stroke_width(2),
+        ))
+        .map_err(plot_err)?
+        .label(format!("claimed {c}"))
+        .legend(|(x, y)| PathElement::new([(x, y), (x + 12, y)], RED.stroke_width(2)));
+        ch.configure_series_labels()
+            .background_style(WHITE.mix(0.8))
+            .border_style(BLACK)
+            .position(SeriesLabelPosition::LowerRight)
+            .draw()
+            .map_err(plot_err)?;
+    }
+    root.present().map_err(plot_err)?;
+    Ok(())
+}
