@@ -121,16 +121,16 @@ impl MiddleKernel {
         let (out0, out1) = out.split_at_mut(2 * h);
 
         // P = MP(a1, x0 + x1), added to both halves.
-        xor3(tx, x0, x1);
+        self.xor3(tx, x0, x1);
         t.fill(0);
         self.mp_rec(a1, tx, t, rest);
         self.xor_into(out0, t);
         self.xor_into(out1, t);
         // out0 += MP(a0 + a1, x1)
-        xor3(ta, a0, a1);
+        self.xor3(ta, a0, a1);
         self.mp_rec(ta, x1, out0, rest);
         // out1 += MP(a1 + a2, x0)
-        xor3(ta, a1, a2);
+        self.xor3(ta, a1, a2);
         self.mp_rec(ta, x0, out1, rest);
     }
 
@@ -156,6 +156,17 @@ impl MiddleKernel {
             #[cfg(not(target_arch = "x86_64"))]
             _ => unreachable!(),
         }
+    }
+
+    #[inline]
+    fn xor3(&self, dst: &mut [u64], a: &[u64], b: &[u64]) {
+        #[cfg(target_arch = "x86_64")]
+        if self.backend == Backend::Vpclmul {
+            // SAFETY: Vpclmul support includes avx512f (Backend::is_supported).
+            unsafe { clmul::vpclmul::xor3(dst, a, b) };
+            return;
+        }
+        xor3(dst, a, b)
     }
 
     #[inline]

@@ -99,3 +99,24 @@ pub unsafe fn xor_into(dst: &mut [u64], src: &[u64]) {
         i += 1;
     }
 }
+
+/// `dst[i] = a[i] ^ b[i]` with 512-bit operations (tail handled scalar).
+///
+/// # Safety
+/// The CPU must support `avx512f`.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f")]
+pub unsafe fn xor3(dst: &mut [u64], a: &[u64], b: &[u64]) {
+    let n = dst.len().min(a.len()).min(b.len());
+    let mut i = 0;
+    while i + 8 <= n {
+        let va = _mm512_loadu_si512(a.as_ptr().add(i) as *const _);
+        let vb = _mm512_loadu_si512(b.as_ptr().add(i) as *const _);
+        _mm512_storeu_si512(dst.as_mut_ptr().add(i) as *mut _, _mm512_xor_si512(va, vb));
+        i += 8;
+    }
+    while i < n {
+        dst[i] = a[i] ^ b[i];
+        i += 1;
+    }
+}
