@@ -14,6 +14,8 @@
 use crate::bits::Bits;
 use std::sync::Mutex;
 
+pub mod trevisan;
+
 /// A seeded extractor `Ext: {0,1}^n x {0,1}^d -> {0,1}^m`, planned for fixed
 /// n, m and d.
 pub trait Extractor: Send + Sync {

@@ -7,3 +7,4 @@
 pub mod clmul;
 
 pub use clmul::Backend;
+pub mod field;
