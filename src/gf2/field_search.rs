@@ -56,10 +56,6 @@ impl Poly {
         self.degree() == Some(0)
     }
 
-    fn bit(&self, i: usize) -> bool {
-        self.0.get(i / 64).is_some_and(|w| (w >> (i % 64)) & 1 == 1)
-    }
-
     /// `self ^= other * z^s`.
     fn xor_shifted(&mut self, other: &Poly, s: usize) {
         let Some(deg) = other.degree() else { return };
