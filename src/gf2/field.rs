@@ -149,6 +149,10 @@ pub(crate) struct Reducer {
     /// Exponents of P_l below l (including 0).
     low: [usize; 4],
     nlow: usize,
+    /// Middle exponents as shift amounts, when all are below 64.
+    mid: [u32; 3],
+    /// Number of middle exponents if all are below 64 (1 or 3), else 0.
+    small: usize,
 }
 
 impl Reducer {
@@ -157,11 +161,22 @@ impl Reducer {
         let mid = poly.middle_exponents();
         low[..mid.len()].copy_from_slice(mid);
         low[mid.len()] = 0;
+        let mut shifts = [0u32; 3];
+        for (s, &e) in shifts.iter_mut().zip(mid) {
+            *s = e as u32;
+        }
+        let small = if !mid.is_empty() && mid.iter().all(|&e| e < 64) {
+            mid.len()
+        } else {
+            0
+        };
         Reducer {
             l: poly.degree(),
             w: poly.degree().div_ceil(64),
             low,
             nlow: mid.len() + 1,
+            mid: shifts,
+            small,
         }
     }
 
@@ -227,6 +242,10 @@ pub struct Field {
     poly: FieldPoly,
     backend: Backend,
     red: Reducer,
+    /// Fixed-width path applies (two folds suffice).
+    fast: bool,
+    /// PCLMULQDQ detected for this backend.
+    pclmul: bool,
 }
 
 impl Field {
@@ -244,10 +263,17 @@ impl Field {
         if !backend.is_supported() {
             return Err(FieldError::BackendUnsupported(backend.name()));
         }
+        let red = Reducer::new(&poly);
+        #[cfg(target_arch = "x86_64")]
+        let pclmul = PclmulKernel::new(backend).is_some();
+        #[cfg(not(target_arch = "x86_64"))]
+        let pclmul = false;
         Ok(Field {
             poly,
             backend,
-            red: Reducer::new(&poly),
+            red,
+            fast: red.two_folds(),
+            pclmul,
         })
     }
 
@@ -275,6 +301,11 @@ impl Field {
         &self.red
     }
 
+    /// Whether the fixed-width fast path applies and PCLMULQDQ is in use.
+    pub(crate) fn fast_flags(&self) -> (bool, bool) {
+        (self.fast, self.pclmul)
+    }
+
     /// `out = a * b` in GF(2^l). Operands must be reduced (no bits at or
     /// above l); so is the result.
     ///
@@ -285,7 +316,7 @@ impl Field {
         crate::extract::check_len("field element a (words)", w, a.len());
         crate::extract::check_len("field element b (words)", w, b.len());
         crate::extract::check_len("field element out (words)", w, out.len());
-        if self.red.two_folds() {
+        if self.fast {
             dispatch_width!(w, mul_fast, (self, a, b, out), self.mul_generic(a, b, out))
         } else {
             self.mul_generic(a, b, out)
@@ -422,6 +453,60 @@ fn split_high<const W: usize, const W2: usize>(p: &mut [u64; W2], l: usize) -> [
     h
 }
 
+/// Reduction when every middle exponent is below 64 (`NM` of them): the
+/// first fold moves W words, the second at most 62 bits, all at fixed word
+/// positions.
+#[inline(always)]
+fn reduce_small<const W: usize, const W2: usize, const NM: usize>(
+    red: &Reducer,
+    p: [u64; W2],
+) -> [u64; W] {
+    let ls = (red.l % 64) as u32;
+    let mut h = [0u64; W];
+    let mut r = [0u64; W];
+    r.copy_from_slice(&p[..W]);
+    let mask = if ls == 0 { u64::MAX } else { (1u64 << ls) - 1 };
+    if ls == 0 {
+        // l = 64 W
+        h.copy_from_slice(&p[W..]);
+    } else {
+        // l = 64 (W - 1) + ls
+        for j in 0..W {
+            h[j] = (p[W - 1 + j] >> ls) | (p[W + j] << (64 - ls));
+        }
+        r[W - 1] &= mask;
+    }
+    let mut over = 0u64;
+    for j in 0..W {
+        r[j] ^= h[j];
+    }
+    for &e in &red.mid[..NM] {
+        for j in 0..W {
+            r[j] ^= h[j] << e;
+            if j + 1 < W {
+                r[j + 1] ^= h[j] >> (64 - e);
+            } else {
+                over ^= h[j] >> (64 - e);
+            }
+        }
+    }
+    let h2 = if ls == 0 {
+        over
+    } else {
+        let v = (r[W - 1] >> ls) | (over << (64 - ls));
+        r[W - 1] &= mask;
+        v
+    };
+    r[0] ^= h2;
+    for &e in &red.mid[..NM] {
+        r[0] ^= h2 << e;
+        if W > 1 {
+            r[1] ^= h2 >> (64 - e);
+        }
+    }
+    r
+}
+
 /// Reduction of a `W2`-word product (degree <= 2l - 2) by P_l with two
 /// folds: z^l = (low terms of P_l), applied to the part above z^l, then once
 /// more to what the first fold pushed over z^l. Two folds suffice when every
@@ -431,6 +516,11 @@ pub(crate) fn reduce_fixed<const W: usize, const W2: usize>(
     red: &Reducer,
     mut p: [u64; W2],
 ) -> [u64; W] {
+    match red.small {
+        1 => return reduce_small::<W, W2, 1>(red, p),
+        3 => return reduce_small::<W, W2, 3>(red, p),
+        _ => {}
+    }
     for _ in 0..2 {
         let h = split_high::<W, W2>(&mut p, red.l);
         for &e in &red.low[..red.nlow] {
@@ -462,25 +552,52 @@ macro_rules! dispatch_width {
 }
 pub(crate) use dispatch_width;
 
+/// Fixed-width product and reduction with PCLMULQDQ: every 64 x 64 product
+/// stays in a 128-bit register and is XORed into the accumulator of its word
+/// offset; the words are taken out once at the end.
+///
+/// # Safety
+/// The CPU must support pclmulqdq and sse2 (see [`PclmulKernel::new`]).
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "pclmulqdq,sse2")]
-unsafe fn mul_fixed_pclmul<const W: usize, const W2: usize>(
-    k: PclmulKernel,
+#[inline]
+pub(crate) unsafe fn mul_fixed_pclmul<const W: usize, const W2: usize>(
     red: &Reducer,
     a: &[u64; W],
     b: &[u64; W],
 ) -> [u64; W] {
-    mul_fixed::<W, W2, PclmulKernel>(k, red, a, b)
+    use core::arch::x86_64::*;
+    let mut va = [_mm_setzero_si128(); W];
+    let mut vb = [_mm_setzero_si128(); W];
+    for i in 0..W {
+        va[i] = _mm_cvtsi64_si128(a[i] as i64);
+        vb[i] = _mm_cvtsi64_si128(b[i] as i64);
+    }
+    let mut acc = [_mm_setzero_si128(); W2];
+    for i in 0..W {
+        for j in 0..W {
+            acc[i + j] = _mm_xor_si128(acc[i + j], _mm_clmulepi64_si128(va[i], vb[j], 0x00));
+        }
+    }
+    let mut p = [0u64; W2];
+    for k in 0..W2 - 1 {
+        let lo = _mm_cvtsi128_si64(acc[k]) as u64;
+        let hi = _mm_cvtsi128_si64(_mm_unpackhi_epi64(acc[k], acc[k])) as u64;
+        p[k] ^= lo;
+        p[k + 1] ^= hi;
+    }
+    reduce_fixed::<W, W2>(red, p)
 }
 
 fn mul_fast<const W: usize, const W2: usize>(field: &Field, a: &[u64], b: &[u64], out: &mut [u64]) {
     let a: &[u64; W] = a.try_into().expect("length checked");
     let b: &[u64; W] = b.try_into().expect("length checked");
     #[cfg(target_arch = "x86_64")]
-    if let Some(k) = PclmulKernel::new(field.backend) {
-        // SAFETY: `PclmulKernel::new` returned Some only after
-        // `Backend::is_supported` checked pclmulqdq and sse2.
-        let r = unsafe { mul_fixed_pclmul::<W, W2>(k, &field.red, a, b) };
+    if field.pclmul {
+        // SAFETY: `field.pclmul` is set only when `PclmulKernel::new`
+        // returned Some, after `Backend::is_supported` checked pclmulqdq and
+        // sse2.
+        let r = unsafe { mul_fixed_pclmul::<W, W2>(&field.red, a, b) };
         out.copy_from_slice(&r);
         return;
     }

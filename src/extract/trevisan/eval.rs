@@ -24,7 +24,7 @@ use crate::bits::Bits;
 use crate::extract::SeededExtractor;
 use crate::gf2::field::{dispatch_width, mul_fixed, Field, Kernel, PortableKernel, Reducer};
 #[cfg(target_arch = "x86_64")]
-use crate::gf2::field::PclmulKernel;
+use crate::gf2::field::mul_fixed_pclmul;
 use rayon::prelude::*;
 
 /// Output bits per parallel task (one output word).
@@ -172,7 +172,7 @@ fn ph_task(
 /// acc[g] = p_x(alphas[g]) for every g (w words each).
 pub(crate) fn horner(field: &Field, blocks: &[u64], alphas: &[u64], acc: &mut [u64]) {
     let w = field.words();
-    if field.reducer().two_folds() {
+    if field.fast_flags().0 {
         dispatch_width!(
             w,
             horner_fixed,
@@ -211,27 +211,100 @@ fn horner_fixed<const W: usize, const W2: usize>(
     let (v, _) = acc.as_chunks_mut::<W>();
     let red = field.reducer();
     #[cfg(target_arch = "x86_64")]
-    if let Some(k) = PclmulKernel::new(field.backend()) {
-        // SAFETY: `PclmulKernel::new` returned Some only after
-        // `Backend::is_supported` checked pclmulqdq and sse2.
-        unsafe { horner_pclmul::<W, W2>(k, red, b, a, v) };
+    if field.fast_flags().1 {
+        // SAFETY: the flag is set only when `PclmulKernel::new` returned
+        // Some, after `Backend::is_supported` checked pclmulqdq and sse2.
+        unsafe { horner_pclmul::<W, W2>(red, b, a, v) };
         return;
     }
     horner_many::<W, W2, PortableKernel>(PortableKernel, red, b, a, v)
 }
 
+/// `v * a + b` with PCLMULQDQ.
+///
+/// # Safety
+/// The CPU must support pclmulqdq and sse2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "pclmulqdq,sse2")]
+#[inline]
+unsafe fn step_pclmul<const W: usize, const W2: usize>(
+    red: &Reducer,
+    v: &[u64; W],
+    a: &[u64; W],
+    b: &[u64; W],
+) -> [u64; W] {
+    let mut r = mul_fixed_pclmul::<W, W2>(red, v, a);
+    for j in 0..W {
+        r[j] ^= b[j];
+    }
+    r
+}
+
+/// [`horner_many`] with PCLMULQDQ (the body is the same macro, so that
+/// every product inlines into this `target_feature` function).
+///
+/// # Safety
+/// The CPU must support pclmulqdq and sse2.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "pclmulqdq,sse2")]
 unsafe fn horner_pclmul<const W: usize, const W2: usize>(
-    k: PclmulKernel,
     red: &Reducer,
     blocks: &[[u64; W]],
     alphas: &[[u64; W]],
     v: &mut [[u64; W]],
 ) {
-    horner_many::<W, W2, PclmulKernel>(k, red, blocks, alphas, v)
+    // SAFETY (for the macro's calls): this function has the features.
+    horner_body!(W, blocks, alphas, v, |x: &[u64; W], a: &[u64; W], b: &[u64; W]| unsafe {
+        step_pclmul::<W, W2>(red, x, a, b)
+    })
 }
 
+/// The interleaved Horner loop over chunks of blocks (see the module docs),
+/// with `$step(v, alpha, block)` = v alpha + block.
+macro_rules! horner_body {
+    ($w:ident, $blocks:expr, $alphas:expr, $v:expr, $step:expr) => {{
+        let (blocks, alphas, v): (&[[u64; $w]], &[[u64; $w]], &mut [[u64; $w]]) =
+            ($blocks, $alphas, $v);
+        let step = $step;
+        for x in v.iter_mut() {
+            *x = [0; $w];
+        }
+        let mut hi = blocks.len();
+        while hi > 0 {
+            let lo = hi.saturating_sub(CHUNK_BLOCKS);
+            let chunk = &blocks[lo..hi];
+            let mut g = 0;
+            while g + 4 <= v.len() {
+                let (a0, a1, a2, a3) = (alphas[g], alphas[g + 1], alphas[g + 2], alphas[g + 3]);
+                let (mut v0, mut v1, mut v2, mut v3) = (v[g], v[g + 1], v[g + 2], v[g + 3]);
+                for b in chunk.iter().rev() {
+                    v0 = step(&v0, &a0, b);
+                    v1 = step(&v1, &a1, b);
+                    v2 = step(&v2, &a2, b);
+                    v3 = step(&v3, &a3, b);
+                }
+                v[g] = v0;
+                v[g + 1] = v1;
+                v[g + 2] = v2;
+                v[g + 3] = v3;
+                g += 4;
+            }
+            while g < v.len() {
+                let a0 = alphas[g];
+                let mut v0 = v[g];
+                for b in chunk.iter().rev() {
+                    v0 = step(&v0, &a0, b);
+                }
+                v[g] = v0;
+                g += 1;
+            }
+            hi = lo;
+        }
+    }};
+}
+use horner_body;
+
+/// `v * a + b` with a kernel of the [`Kernel`] trait.
 #[inline(always)]
 fn step<const W: usize, const W2: usize, K: Kernel>(
     k: K,
@@ -247,7 +320,7 @@ fn step<const W: usize, const W2: usize, K: Kernel>(
     r
 }
 
-/// Interleaved Horner over chunks of blocks (see the module docs).
+/// Interleaved Horner with a portable-style kernel.
 #[inline(always)]
 fn horner_many<const W: usize, const W2: usize, K: Kernel>(
     k: K,
@@ -256,40 +329,7 @@ fn horner_many<const W: usize, const W2: usize, K: Kernel>(
     alphas: &[[u64; W]],
     v: &mut [[u64; W]],
 ) {
-    for x in v.iter_mut() {
-        *x = [0; W];
-    }
-    let mut hi = blocks.len();
-    while hi > 0 {
-        let lo = hi.saturating_sub(CHUNK_BLOCKS);
-        let chunk = &blocks[lo..hi];
-        let mut g = 0;
-        while g + 4 <= v.len() {
-            let (a0, a1, a2, a3) = (alphas[g], alphas[g + 1], alphas[g + 2], alphas[g + 3]);
-            let (mut v0, mut v1, mut v2, mut v3) = (v[g], v[g + 1], v[g + 2], v[g + 3]);
-            for b in chunk.iter().rev() {
-                v0 = step::<W, W2, K>(k, red, &v0, &a0, b);
-                v1 = step::<W, W2, K>(k, red, &v1, &a1, b);
-                v2 = step::<W, W2, K>(k, red, &v2, &a2, b);
-                v3 = step::<W, W2, K>(k, red, &v3, &a3, b);
-            }
-            v[g] = v0;
-            v[g + 1] = v1;
-            v[g + 2] = v2;
-            v[g + 3] = v3;
-            g += 4;
-        }
-        while g < v.len() {
-            let a0 = alphas[g];
-            let mut v0 = v[g];
-            for b in chunk.iter().rev() {
-                v0 = step::<W, W2, K>(k, red, &v0, &a0, b);
-            }
-            v[g] = v0;
-            g += 1;
-        }
-        hi = lo;
-    }
+    horner_body!(W, blocks, alphas, v, |x: &[u64; W], a: &[u64; W], b: &[u64; W]| step::<W, W2, K>(k, red, x, a, b))
 }
 
 fn extract_ip(tr: &Trevisan, input: &Bits, seed: &Bits, out: &mut Bits) {
