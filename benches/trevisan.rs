@@ -65,7 +65,13 @@ fn bench_field(c: &mut Criterion) {
 
 /// (label, spec) at n = 2^16 and (slices of) n = 2^20, from the worked table
 /// of spec section 6 (k_s = 0.9n, eps_total = 1e-12).
-fn variants() -> (Vec<(&'static str, TrevisanSpec)>, Vec<(&'static str, TrevisanSpec, usize)>) {
+/// (label, spec) of whole runs, and (label, spec of a slice, full m).
+type Variants = (
+    Vec<(&'static str, TrevisanSpec)>,
+    Vec<(&'static str, TrevisanSpec, usize)>,
+);
+
+fn variants() -> Variants {
     let n16 = 1 << 16;
     let n20 = 1 << 20;
     let small = vec![
@@ -74,8 +80,16 @@ fn variants() -> (Vec<(&'static str, TrevisanSpec)>, Vec<(&'static str, Trevisan
     ];
     // (label, spec, full m)
     let large = vec![
-        ("ph-poly-c1", ph(n20, 4096, 255, DesignKind::Poly, 1), 383_932),
-        ("ph-block", ph(n20, 4096, 261, DesignKind::Block, 1), 943_344),
+        (
+            "ph-poly-c1",
+            ph(n20, 4096, 255, DesignKind::Poly, 1),
+            383_932,
+        ),
+        (
+            "ph-block",
+            ph(n20, 4096, 261, DesignKind::Block, 1),
+            943_344,
+        ),
     ];
     (small, large)
 }
@@ -112,11 +126,15 @@ fn bench_trevisan(c: &mut Criterion) {
 
 /// One whole n = 2^20 run per variant, timed once (on request).
 fn full_runs() {
-    if std::env::var_os("SLUICE_BENCH_FULL").is_none() {
+    let Some(which) = std::env::var_os("SLUICE_BENCH_FULL") else {
         return;
-    }
+    };
+    let which = which.to_string_lossy().to_string();
     let (_, large) = variants();
     for (label, spec, m) in large {
+        if which != "1" && which != label {
+            continue;
+        }
         let spec = TrevisanSpec { m, ..spec };
         let tr = Trevisan::new(&spec).unwrap();
         let x = random_bits(spec.n, 3);

@@ -108,7 +108,11 @@ proptest! {
 fn wide_fields_match_reference() {
     // Fields past the fixed-width fast path (more than 9 words) and large
     // word counts, a few cases each (slow reference).
-    for (n, l, m) in [(1300usize, 577usize, 5usize), (2100, 1000, 3), (2048, 2048, 2)] {
+    for (n, l, m) in [
+        (1300usize, 577usize, 5usize),
+        (2100, 1000, 3),
+        (2048, 2048, 2),
+    ] {
         for design in [DesignKind::Poly, DesignKind::Block] {
             let spec = TrevisanSpec {
                 n,
@@ -151,7 +155,11 @@ fn d1_collision_bound_is_met_and_tight() {
         let mut worst = 0usize;
         for a in 0..table.len() {
             for b in a + 1..table.len() {
-                let same = table[a].iter().zip(&table[b]).filter(|(p, q)| p == q).count();
+                let same = table[a]
+                    .iter()
+                    .zip(&table[b])
+                    .filter(|(p, q)| p == q)
+                    .count();
                 worst = worst.max(same);
             }
         }
@@ -174,18 +182,51 @@ fn bad_parameters_name_the_field() {
     };
     let e = Trevisan::new(&TrevisanSpec { m: 0, ..base }).unwrap_err();
     assert_eq!(e.field(), "output-bits");
-    let e = Trevisan::new(&TrevisanSpec { field_bits: 3000, ..base }).unwrap_err();
+    let e = Trevisan::new(&TrevisanSpec {
+        field_bits: 3000,
+        ..base
+    })
+    .unwrap_err();
     assert_eq!(e.field(), "field-bits");
     assert!(e.to_string().contains("3000"), "{e}");
-    let e = Trevisan::new(&TrevisanSpec { prime: Some(39), ..base }).unwrap_err();
+    let e = Trevisan::new(&TrevisanSpec {
+        prime: Some(39),
+        ..base
+    })
+    .unwrap_err();
     assert!(matches!(e.kind(), ErrorKind::NotPrime { value: 39 }), "{e}");
-    let e = Trevisan::new(&TrevisanSpec { prime: Some(31), ..base }).unwrap_err();
-    assert!(matches!(e.kind(), ErrorKind::TooSmall { value: 31, min: 32 }), "{e}");
+    let e = Trevisan::new(&TrevisanSpec {
+        prime: Some(31),
+        ..base
+    })
+    .unwrap_err();
+    assert!(
+        matches!(e.kind(), ErrorKind::TooSmall { value: 31, min: 32 }),
+        "{e}"
+    );
     // t = 4, q = 5: m = 626 > 5^4 needs D = 4 > t - 1 (4.1)
-    let e = Trevisan::new(&TrevisanSpec { field_bits: 2, m: 626, ..base }).unwrap_err();
-    assert!(matches!(e.kind(), ErrorKind::TooManySets { degree: 4, .. }), "{e}");
+    let e = Trevisan::new(&TrevisanSpec {
+        field_bits: 2,
+        m: 626,
+        ..base
+    })
+    .unwrap_err();
+    assert!(
+        matches!(e.kind(), ErrorKind::TooManySets { degree: 4, .. }),
+        "{e}"
+    );
     // BLOCK has no such limit
-    assert!(Trevisan::new(&TrevisanSpec { field_bits: 2, m: 626, design: DesignKind::Block, ..base }).is_ok());
-    let e = Trevisan::new(&TrevisanSpec { one_bit: OneBit::Ip, ..base }).unwrap_err();
+    assert!(Trevisan::new(&TrevisanSpec {
+        field_bits: 2,
+        m: 626,
+        design: DesignKind::Block,
+        ..base
+    })
+    .is_ok());
+    let e = Trevisan::new(&TrevisanSpec {
+        one_bit: OneBit::Ip,
+        ..base
+    })
+    .unwrap_err();
     assert_eq!(e.field(), "field-bits");
 }

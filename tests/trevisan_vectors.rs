@@ -106,12 +106,19 @@ fn spec_section_9_vectors_fast_and_reference() {
     for v in spec_vectors() {
         let x = stream("trevisan-spec/x", v.spec.n);
         // section 9: x starts with 30a5216d5d81739d02bc36e729cad3e9
-        assert!(x.to_hex(BitOrder::Msb).starts_with(&"30a5216d5d81739d02bc36e729cad3e9"[..(v.spec.n / 4).min(32)]));
+        assert!(x
+            .to_hex(BitOrder::Msb)
+            .starts_with(&"30a5216d5d81739d02bc36e729cad3e9"[..(v.spec.n / 4).min(32)]));
         let tr = Trevisan::new(&v.spec).unwrap();
         assert_eq!(tr.prime(), v.q, "{}", v.id);
         assert_eq!(tr.seed_bits(), v.d, "{}", v.id);
         let y = stream("trevisan-spec/y", v.d);
-        assert_eq!(sha256_hex(&y.to_packed(BitOrder::Msb)), v.seed_sha256, "{} seed", v.id);
+        assert_eq!(
+            sha256_hex(&y.to_packed(BitOrder::Msb)),
+            v.seed_sha256,
+            "{} seed",
+            v.id
+        );
         let mut z = Bits::zeros(v.spec.m);
         tr.extract(&x, &y, &mut z);
         assert_eq!(z.to_hex(BitOrder::Msb), v.z, "{} fast path", v.id);
@@ -127,7 +134,12 @@ fn spec_section_9_vectors_fast_and_reference() {
             q: v.q,
         };
         let zr = reference::extract(&p, &to_bools(&x), &to_bools(&y));
-        assert_eq!(Bits::from_bools(&zr).to_hex(BitOrder::Msb), v.z, "{} reference", v.id);
+        assert_eq!(
+            Bits::from_bools(&zr).to_hex(BitOrder::Msb),
+            v.z,
+            "{} reference",
+            v.id
+        );
     }
 }
 
@@ -143,7 +155,9 @@ fn spec_v1_intermediate_values() {
     let mut blocks = vec![0u64; 16];
     sluice::extract::trevisan::onebit::parse_blocks(&x, 16, &mut blocks);
     assert_eq!((blocks[0], blocks[1], blocks[15]), (0xa50c, 0xb684, 0xd9c9));
-    let rows: [(u64, [u64; 4], u64, u64, u64, u64, bool); 4] = [
+    // (i, first four of S_i, last of S_i, alpha, beta, p_x(alpha), z_i)
+    type Row = (u64, [u64; 4], u64, u64, u64, u64, bool);
+    let rows: [Row; 4] = [
         (0, [0, 37, 74, 111], 1147, 0x771e, 0x6474, 0xa226, true),
         (37, [0, 38, 76, 114], 1178, 0x33ec, 0x0166, 0x0550, false),
         (40, [3, 41, 79, 117], 1181, 0x6472, 0xfc91, 0xe3c8, false),
@@ -175,7 +189,16 @@ fn spec_v1_intermediate_values() {
 // ---- vectors/trevisan.vec --------------------------------------------------
 
 /// One case of the vector file: (name, one-bit, design, n, m, l, c, explicit q).
-type Case = (&'static str, OneBit, DesignKind, usize, usize, usize, u64, Option<u64>);
+type Case = (
+    &'static str,
+    OneBit,
+    DesignKind,
+    usize,
+    usize,
+    usize,
+    u64,
+    Option<u64>,
+);
 
 /// The cases of `vectors/trevisan.vec` (own choice: both one-bit extractors,
 /// both designs, l not a multiple of 64, padded last blocks, m = 1, degrees
@@ -306,7 +329,10 @@ fn regenerate_vector_file() {
 #[test]
 fn vector_file_is_current() {
     let on_disk = std::fs::read_to_string(VECTOR_FILE).expect("vectors/trevisan.vec");
-    assert!(on_disk == render_vector_file(), "vectors/trevisan.vec is stale: regenerate it");
+    assert!(
+        on_disk == render_vector_file(),
+        "vectors/trevisan.vec is stale: regenerate it"
+    );
 }
 
 /// A minimal reader of the vector format (the project's reader is separate).
@@ -370,7 +396,11 @@ fn fast_path_reproduces_the_vector_file() {
         tr.extract(&x, &y, &mut z);
         assert_eq!(z.to_hex(BitOrder::Msb), get("output").unwrap(), "{name}");
         // the default rule gives the recorded prime
-        let default = Trevisan::new(&TrevisanSpec { prime: None, ..spec }).unwrap();
+        let default = Trevisan::new(&TrevisanSpec {
+            prime: None,
+            ..spec
+        })
+        .unwrap();
         if !name.contains("-q") {
             assert_eq!(default.prime(), spec.prime.unwrap(), "{name}");
         }

@@ -34,7 +34,12 @@ fn render(table: &[Vec<usize>]) -> String {
     );
     writeln!(s, "/// Largest degree in the table.").unwrap();
     writeln!(s, "pub const MAX_DEGREE: usize = {MAX_DEGREE};\n").unwrap();
-    writeln!(s, "/// Middle exponents of P_l, indexed by l (see the file header).").unwrap();
+    writeln!(
+        s,
+        "/// Middle exponents of P_l, indexed by l (see the file header)."
+    )
+    .unwrap();
+    writeln!(s, "#[rustfmt::skip]").unwrap();
     writeln!(
         s,
         "pub static MIDDLE_EXPONENTS: [[u16; 3]; MAX_DEGREE + 1] = ["
@@ -64,8 +69,9 @@ fn main() -> ExitCode {
             if l == 0 {
                 Vec::new()
             } else {
-                search_field_poly(l, is_irreducible_ben_or)
-                    .unwrap_or_else(|| panic!("no irreducible trinomial or pentanomial of degree {l}"))
+                search_field_poly(l, is_irreducible_ben_or).unwrap_or_else(|| {
+                    panic!("no irreducible trinomial or pentanomial of degree {l}")
+                })
             }
         })
         .collect();

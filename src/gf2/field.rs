@@ -18,6 +18,10 @@
 //! [`Backend`] chosen once when the field is built; every backend gives the
 //! same elements (tested).
 
+// Fixed-width loops index several arrays by the same constant-bounded
+// counter on purpose (they unroll to fixed word positions).
+#![allow(clippy::needless_range_loop)]
+
 #[path = "field_search.rs"]
 pub mod search;
 #[path = "field_table.rs"]
@@ -341,7 +345,6 @@ impl Field {
         self.red.reduce_slice(wide);
         out.copy_from_slice(&wide[..self.red.w]);
     }
-
 }
 
 // ---- fixed-width fast path ------------------------------------------------
@@ -371,16 +374,6 @@ pub(crate) struct PclmulKernel(());
 impl PclmulKernel {
     pub(crate) fn new(backend: Backend) -> Option<PclmulKernel> {
         (backend != Backend::Portable && Backend::Pclmul.is_supported()).then_some(PclmulKernel(()))
-    }
-}
-
-#[cfg(target_arch = "x86_64")]
-impl Kernel for PclmulKernel {
-    #[inline(always)]
-    fn clmul(self, a: u64, b: u64) -> (u64, u64) {
-        // SAFETY: a PclmulKernel is only made by `PclmulKernel::new`, after
-        // `Backend::is_supported` checked pclmulqdq and sse2.
-        unsafe { crate::gf2::clmul::pclmul::clmul64(a, b) }
     }
 }
 
@@ -552,9 +545,45 @@ macro_rules! dispatch_width {
 }
 pub(crate) use dispatch_width;
 
-/// Fixed-width product and reduction with PCLMULQDQ: every 64 x 64 product
-/// stays in a 128-bit register and is XORed into the accumulator of its word
-/// offset; the words are taken out once at the end.
+/// Body of the fixed-width PCLMULQDQ product and reduction, pasted into each
+/// `target_feature` function that needs it (a call would not inline: see
+/// [`mul_fixed_pclmul`]). Every 64 x 64 product stays in a 128-bit register
+/// and is XORed into the accumulator of its word offset; the words are taken
+/// out once at the end. Must be expanded inside `unsafe` code running with
+/// pclmulqdq and sse2 enabled.
+#[cfg(target_arch = "x86_64")]
+macro_rules! pclmul_mul_body {
+    ($w:ident, $w2:ident, $red:expr, $a:expr, $b:expr) => {{
+        use core::arch::x86_64::*;
+        let (a, b): (&[u64; $w], &[u64; $w]) = ($a, $b);
+        let mut va = [_mm_setzero_si128(); $w];
+        let mut vb = [_mm_setzero_si128(); $w];
+        for i in 0..$w {
+            va[i] = _mm_cvtsi64_si128(a[i] as i64);
+            vb[i] = _mm_cvtsi64_si128(b[i] as i64);
+        }
+        let mut acc = [_mm_setzero_si128(); $w2];
+        for i in 0..$w {
+            for j in 0..$w {
+                acc[i + j] = _mm_xor_si128(acc[i + j], _mm_clmulepi64_si128(va[i], vb[j], 0x00));
+            }
+        }
+        let mut p = [0u64; $w2];
+        for k in 0..$w2 - 1 {
+            let lo = _mm_cvtsi128_si64(acc[k]) as u64;
+            let hi = _mm_cvtsi128_si64(_mm_unpackhi_epi64(acc[k], acc[k])) as u64;
+            p[k] ^= lo;
+            p[k + 1] ^= hi;
+        }
+        $crate::gf2::field::reduce_fixed::<$w, $w2>($red, p)
+    }};
+}
+#[cfg(target_arch = "x86_64")]
+pub(crate) use pclmul_mul_body;
+
+/// Fixed-width product and reduction with PCLMULQDQ (one call per product;
+/// hot loops paste [`pclmul_mul_body`] instead, because LLVM does not always
+/// inline a large `target_feature` function into its caller).
 ///
 /// # Safety
 /// The CPU must support pclmulqdq and sse2 (see [`PclmulKernel::new`]).
@@ -566,27 +595,7 @@ pub(crate) unsafe fn mul_fixed_pclmul<const W: usize, const W2: usize>(
     a: &[u64; W],
     b: &[u64; W],
 ) -> [u64; W] {
-    use core::arch::x86_64::*;
-    let mut va = [_mm_setzero_si128(); W];
-    let mut vb = [_mm_setzero_si128(); W];
-    for i in 0..W {
-        va[i] = _mm_cvtsi64_si128(a[i] as i64);
-        vb[i] = _mm_cvtsi64_si128(b[i] as i64);
-    }
-    let mut acc = [_mm_setzero_si128(); W2];
-    for i in 0..W {
-        for j in 0..W {
-            acc[i + j] = _mm_xor_si128(acc[i + j], _mm_clmulepi64_si128(va[i], vb[j], 0x00));
-        }
-    }
-    let mut p = [0u64; W2];
-    for k in 0..W2 - 1 {
-        let lo = _mm_cvtsi128_si64(acc[k]) as u64;
-        let hi = _mm_cvtsi128_si64(_mm_unpackhi_epi64(acc[k], acc[k])) as u64;
-        p[k] ^= lo;
-        p[k + 1] ^= hi;
-    }
-    reduce_fixed::<W, W2>(red, p)
+    pclmul_mul_body!(W, W2, red, a, b)
 }
 
 fn mul_fast<const W: usize, const W2: usize>(field: &Field, a: &[u64], b: &[u64], out: &mut [u64]) {
@@ -680,17 +689,35 @@ mod tests {
     fn published_field_polynomials() {
         // NIST SP 800-38D (GCM), section 6.3: the field GF(2^128) is defined
         // by 1 + x + x^2 + x^7 + x^128.
-        assert_eq!(FieldPoly::for_degree(128).unwrap().exponents(), vec![128, 7, 2, 1, 0]);
+        assert_eq!(
+            FieldPoly::for_degree(128).unwrap().exponents(),
+            vec![128, 7, 2, 1, 0]
+        );
         // NIST FIPS 186 (binary curves, from memory): B-163 / K-163
         // f(z) = z^163 + z^7 + z^6 + z^3 + 1; B-233 / K-233 z^233 + z^74 + 1;
         // B-283 / K-283 z^283 + z^12 + z^7 + z^5 + 1.
-        assert_eq!(FieldPoly::for_degree(163).unwrap().exponents(), vec![163, 7, 6, 3, 0]);
-        assert_eq!(FieldPoly::for_degree(233).unwrap().exponents(), vec![233, 74, 0]);
-        assert_eq!(FieldPoly::for_degree(283).unwrap().exponents(), vec![283, 12, 7, 5, 0]);
+        assert_eq!(
+            FieldPoly::for_degree(163).unwrap().exponents(),
+            vec![163, 7, 6, 3, 0]
+        );
+        assert_eq!(
+            FieldPoly::for_degree(233).unwrap().exponents(),
+            vec![233, 74, 0]
+        );
+        assert_eq!(
+            FieldPoly::for_degree(283).unwrap().exponents(),
+            vec![283, 12, 7, 5, 0]
+        );
         // spec/trevisan.md 9: P_16 = z^16 + z^5 + z^3 + z + 1 and
         // P_24 = z^24 + z^4 + z^3 + z + 1.
-        assert_eq!(FieldPoly::for_degree(16).unwrap().exponents(), vec![16, 5, 3, 1, 0]);
-        assert_eq!(FieldPoly::for_degree(24).unwrap().exponents(), vec![24, 4, 3, 1, 0]);
+        assert_eq!(
+            FieldPoly::for_degree(16).unwrap().exponents(),
+            vec![16, 5, 3, 1, 0]
+        );
+        assert_eq!(
+            FieldPoly::for_degree(24).unwrap().exponents(),
+            vec![24, 4, 3, 1, 0]
+        );
         // conventions.md: P_1 = z + 1.
         assert_eq!(FieldPoly::for_degree(1).unwrap().exponents(), vec![1, 0]);
         assert!(FieldPoly::for_degree(0).is_none());
@@ -735,7 +762,9 @@ mod tests {
     fn products_match_the_bitwise_oracle() {
         let mut rng = Rng(0x1234_5678_9abc_def1);
         let sizes: Vec<usize> = (1..=70)
-            .chain([127, 128, 129, 163, 191, 192, 233, 255, 256, 261, 281, 283, 521, 1000, 2048])
+            .chain([
+                127, 128, 129, 163, 191, 192, 233, 255, 256, 261, 281, 283, 521, 1000, 2048,
+            ])
             .collect();
         for l in sizes {
             for be in Backend::all_supported() {
@@ -745,7 +774,8 @@ mod tests {
                     let b = rng.element(l);
                     let mut out = vec![0u64; f.words()];
                     f.mul(&a, &b, &mut out);
-                    let want = from_bools(&mul_bitwise(f.poly(), &to_bools(&a, l), &to_bools(&b, l)));
+                    let want =
+                        from_bools(&mul_bitwise(f.poly(), &to_bools(&a, l), &to_bools(&b, l)));
                     assert_eq!(out, want, "l = {l}, backend {be:?}");
                     f.mul_generic(&a, &b, &mut out);
                     assert_eq!(out, want, "generic path, l = {l}, backend {be:?}");

@@ -102,7 +102,7 @@ impl Poly {
     fn truncate_bits(&mut self, l: usize) {
         let words = l.div_ceil(64);
         self.0.truncate(words);
-        if l % 64 != 0 {
+        if !l.is_multiple_of(64) {
             if let Some(last) = self.0.get_mut(l / 64) {
                 *last &= (1u64 << (l % 64)) - 1;
             }
@@ -193,9 +193,9 @@ fn prime_factors(mut n: usize) -> Vec<usize> {
     let mut out = Vec::new();
     let mut p = 2;
     while p * p <= n {
-        if n % p == 0 {
+        if n.is_multiple_of(p) {
             out.push(p);
-            while n % p == 0 {
+            while n.is_multiple_of(p) {
                 n /= p;
             }
         }
@@ -321,12 +321,12 @@ mod tests {
             &[4, 3, 2, 1, 0],
         ];
         let reducible: &[&[usize]] = &[
-            &[2, 0],          // (z+1)^2
-            &[3, 0],          // (z+1)(z^2+z+1)
-            &[4, 0],          // (z+1)^4
-            &[4, 2, 0],       // (z^2+z+1)^2
-            &[4, 3, 2, 0],    // (z+1)(z^3+z+1)
-            &[5, 4, 0],       // z^5+z^4+1 = (z^2+z+1)(z^3+z+1)
+            &[2, 0],       // (z+1)^2
+            &[3, 0],       // (z+1)(z^2+z+1)
+            &[4, 0],       // (z+1)^4
+            &[4, 2, 0],    // (z^2+z+1)^2
+            &[4, 3, 2, 0], // (z+1)(z^3+z+1)
+            &[5, 4, 0],    // z^5+z^4+1 = (z^2+z+1)(z^3+z+1)
         ];
         for f in irreducible {
             assert!(is_irreducible_rabin(f), "{f:?}");
@@ -373,9 +373,6 @@ mod tests {
         }
         // Number of irreducible polynomials of degree l over GF(2): OEIS
         // A001037 (1 -> 2, ..., 12 -> 335); Gauss's formula (common practice).
-        assert_eq!(
-            count[1..],
-            [2, 1, 2, 3, 6, 9, 18, 30, 56, 99, 186, 335]
-        );
+        assert_eq!(count[1..], [2, 1, 2, 3, 6, 9, 18, 30, 56, 99, 186, 335]);
     }
 }

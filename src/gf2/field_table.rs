@@ -10,6 +10,7 @@
 pub const MAX_DEGREE: usize = 2048;
 
 /// Middle exponents of P_l, indexed by l (see the file header).
+#[rustfmt::skip]
 pub static MIDDLE_EXPONENTS: [[u16; 3]; MAX_DEGREE + 1] = [
     [0, 0, 0], // 0
     [0, 0, 0], // 1

@@ -39,12 +39,12 @@ pub fn is_prime(x: u64) -> bool {
     if x < 4 {
         return true;
     }
-    if x % 2 == 0 {
+    if x.is_multiple_of(2) {
         return false;
     }
     let mut p = 3u64;
     while p.saturating_mul(p) <= x {
-        if x % p == 0 {
+        if x.is_multiple_of(p) {
             return false;
         }
         p += 2;
@@ -422,7 +422,15 @@ mod tests {
         // worked table (section 6): smallest prime >= t.
         let first: Vec<u64> = (0..40).filter(|&x| is_prime(x)).collect();
         assert_eq!(first, [2, 3, 5, 7, 11, 13, 17, 19, 23, 29, 31, 37]);
-        for (t, q) in [(32u64, 37u64), (48, 53), (64, 67), (308, 311), (510, 521), (522, 523), (562, 563)] {
+        for (t, q) in [
+            (32u64, 37u64),
+            (48, 53),
+            (64, 67),
+            (308, 311),
+            (510, 521),
+            (522, 523),
+            (562, 563),
+        ] {
             assert_eq!(smallest_prime_at_least(t), Some(q));
         }
         // c = 8 rows: t = 520 -> q = 4177, t = 316 -> q = 2531.
@@ -471,11 +479,18 @@ mod tests {
             assert_eq!(des.max_degree(), d);
             let brute = brute_force_overlaps(&des);
             for (i, &w) in brute.iter().enumerate() {
-                assert_eq!(w, des.overlap_closed_form(i as u64), "t={t} q={q} m={m} i={i}");
+                assert_eq!(
+                    w,
+                    des.overlap_closed_form(i as u64),
+                    "t={t} q={q} m={m} i={i}"
+                );
             }
             let max = *brute.iter().max().unwrap();
             let r_needed = max as f64 / (m - 1) as f64;
-            assert!((r_needed - needed).abs() < 5e-5, "t={t} q={q} m={m}: {r_needed}");
+            assert!(
+                (r_needed - needed).abs() < 5e-5,
+                "t={t} q={q} m={m}: {r_needed}"
+            );
             let (num, den) = des.r_exact();
             assert!(max * den <= num * (m as u128 - 1));
         }
@@ -492,7 +507,18 @@ mod tests {
         // force and max W(i) <= r (m - 1) with r = R_D (POLY) or 1 (BLOCK).
         for t in 1u64..=9 {
             for q in [2u64, 3, 5, 7, 11, 13].into_iter().filter(|&q| q >= t) {
-                for m in [1u64, 2, 3, q - 1, q, q + 1, 2 * q + 3, q * q, q * q + 1, 150] {
+                for m in [
+                    1u64,
+                    2,
+                    3,
+                    q - 1,
+                    q,
+                    q + 1,
+                    2 * q + 3,
+                    q * q,
+                    q * q + 1,
+                    150,
+                ] {
                     for kind in [DesignKind::Poly, DesignKind::Block] {
                         let Ok(des) = Design::new(kind, m.max(1), t, q) else {
                             // only POLY may refuse, and only when m > q^t
@@ -504,7 +530,10 @@ mod tests {
                         let (num, den) = des.r_exact();
                         for (i, &w) in brute.iter().enumerate() {
                             assert_eq!(w, des.overlap_closed_form(i as u64));
-                            assert!(w * den <= num * (des.sets() as u128 - 1), "{kind:?} t={t} q={q} m={m} i={i}");
+                            assert!(
+                                w * den <= num * (des.sets() as u128 - 1),
+                                "{kind:?} t={t} q={q} m={m} i={i}"
+                            );
                         }
                         // sets lie inside the seed and have t distinct positions
                         let mut s = vec![0; t as usize];

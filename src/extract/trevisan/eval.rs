@@ -18,13 +18,17 @@
 //! - With a seed bound ([`PreparedPh`]), the (alpha, beta) of every output
 //!   bit are gathered once.
 
+// Fixed-width loops index several arrays by the same constant-bounded
+// counter on purpose (they unroll to fixed word positions).
+#![allow(clippy::needless_range_loop)]
+
 use super::onebit::{parity_and, parse_blocks};
 use super::{OneBit, Trevisan};
 use crate::bits::Bits;
 use crate::extract::SeededExtractor;
-use crate::gf2::field::{dispatch_width, mul_fixed, Field, Kernel, PortableKernel, Reducer};
 #[cfg(target_arch = "x86_64")]
-use crate::gf2::field::mul_fixed_pclmul;
+use crate::gf2::field::pclmul_mul_body;
+use crate::gf2::field::{dispatch_width, mul_fixed, Field, Kernel, PortableKernel, Reducer};
 use rayon::prelude::*;
 
 /// Output bits per parallel task (one output word).
@@ -80,7 +84,14 @@ fn read64(words: &[u64], pos: u64) -> u64 {
 }
 
 /// Gathers alpha and beta of output bit `i` (3.1 step 2 on y|S_i).
-fn gather_ph(tr: &Trevisan, seed: &[u64], i: u64, pos: &mut [u64], alpha: &mut [u64], beta: &mut [u64]) {
+fn gather_ph(
+    tr: &Trevisan,
+    seed: &[u64],
+    i: u64,
+    pos: &mut [u64],
+    alpha: &mut [u64],
+    beta: &mut [u64],
+) {
     let l = tr.t / 2;
     tr.design.positions(i, pos);
     alpha.fill(0);
@@ -220,26 +231,6 @@ fn horner_fixed<const W: usize, const W2: usize>(
     horner_many::<W, W2, PortableKernel>(PortableKernel, red, b, a, v)
 }
 
-/// `v * a + b` with PCLMULQDQ.
-///
-/// # Safety
-/// The CPU must support pclmulqdq and sse2.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "pclmulqdq,sse2")]
-#[inline]
-unsafe fn step_pclmul<const W: usize, const W2: usize>(
-    red: &Reducer,
-    v: &[u64; W],
-    a: &[u64; W],
-    b: &[u64; W],
-) -> [u64; W] {
-    let mut r = mul_fixed_pclmul::<W, W2>(red, v, a);
-    for j in 0..W {
-        r[j] ^= b[j];
-    }
-    r
-}
-
 /// [`horner_many`] with PCLMULQDQ (the body is the same macro, so that
 /// every product inlines into this `target_feature` function).
 ///
@@ -254,18 +245,31 @@ unsafe fn horner_pclmul<const W: usize, const W2: usize>(
     v: &mut [[u64; W]],
 ) {
     // SAFETY (for the macro's calls): this function has the features.
-    horner_body!(W, blocks, alphas, v, |x: &[u64; W], a: &[u64; W], b: &[u64; W]| unsafe {
-        step_pclmul::<W, W2>(red, x, a, b)
+    horner_body!(W, blocks, alphas, v, |x, a, b| {
+        let mut r: [u64; W] = pclmul_mul_body!(W, W2, red, x, a);
+        for j in 0..W {
+            r[j] ^= b[j];
+        }
+        r
     })
 }
 
 /// The interleaved Horner loop over chunks of blocks (see the module docs),
 /// with `$step(v, alpha, block)` = v alpha + block.
 macro_rules! horner_body {
-    ($w:ident, $blocks:expr, $alphas:expr, $v:expr, $step:expr) => {{
+    ($w:ident, $blocks:expr, $alphas:expr, $v:expr, |$x:ident, $a:ident, $b:ident| $step:expr) => {{
         let (blocks, alphas, v): (&[[u64; $w]], &[[u64; $w]], &mut [[u64; $w]]) =
             ($blocks, $alphas, $v);
-        let step = $step;
+        // The step is pasted in place (no closure), so that it inlines into
+        // a `target_feature` caller.
+        macro_rules! step {
+            ($vv:expr, $aa:expr, $bb:expr) => {{
+                let $x: &[u64; $w] = $vv;
+                let $a: &[u64; $w] = $aa;
+                let $b: &[u64; $w] = $bb;
+                $step
+            }};
+        }
         for x in v.iter_mut() {
             *x = [0; $w];
         }
@@ -278,10 +282,10 @@ macro_rules! horner_body {
                 let (a0, a1, a2, a3) = (alphas[g], alphas[g + 1], alphas[g + 2], alphas[g + 3]);
                 let (mut v0, mut v1, mut v2, mut v3) = (v[g], v[g + 1], v[g + 2], v[g + 3]);
                 for b in chunk.iter().rev() {
-                    v0 = step(&v0, &a0, b);
-                    v1 = step(&v1, &a1, b);
-                    v2 = step(&v2, &a2, b);
-                    v3 = step(&v3, &a3, b);
+                    v0 = step!(&v0, &a0, b);
+                    v1 = step!(&v1, &a1, b);
+                    v2 = step!(&v2, &a2, b);
+                    v3 = step!(&v3, &a3, b);
                 }
                 v[g] = v0;
                 v[g + 1] = v1;
@@ -293,7 +297,7 @@ macro_rules! horner_body {
                 let a0 = alphas[g];
                 let mut v0 = v[g];
                 for b in chunk.iter().rev() {
-                    v0 = step(&v0, &a0, b);
+                    v0 = step!(&v0, &a0, b);
                 }
                 v[g] = v0;
                 g += 1;
@@ -329,7 +333,9 @@ fn horner_many<const W: usize, const W2: usize, K: Kernel>(
     alphas: &[[u64; W]],
     v: &mut [[u64; W]],
 ) {
-    horner_body!(W, blocks, alphas, v, |x: &[u64; W], a: &[u64; W], b: &[u64; W]| step::<W, W2, K>(k, red, x, a, b))
+    horner_body!(W, blocks, alphas, v, |x, a, b| step::<W, W2, K>(
+        k, red, x, a, b
+    ))
 }
 
 fn extract_ip(tr: &Trevisan, input: &Bits, seed: &Bits, out: &mut Bits) {
@@ -348,7 +354,14 @@ fn extract_ip(tr: &Trevisan, input: &Bits, seed: &Bits, out: &mut Bits) {
 }
 
 /// IP output bits `first .. first + count` (count <= 64) as one word.
-fn ip_task(tr: &Trevisan, x: &Bits, seed: &Bits, first: u64, count: u64, s: &mut TaskScratch) -> u64 {
+fn ip_task(
+    tr: &Trevisan,
+    x: &Bits,
+    seed: &Bits,
+    first: u64,
+    count: u64,
+    s: &mut TaskScratch,
+) -> u64 {
     if s.pos.len() != tr.t {
         s.pos = vec![0; tr.t];
     }
@@ -362,7 +375,11 @@ fn ip_task(tr: &Trevisan, x: &Bits, seed: &Bits, first: u64, count: u64, s: &mut
             // columns u0 .. u0 + len of the matrix of the group (section 7)
             let run = (end - i).min(g.start + g.size - i);
             let u0 = i - g.start;
-            let mask = if run == 64 { u64::MAX } else { (1u64 << run) - 1 };
+            let mask = if run == 64 {
+                u64::MAX
+            } else {
+                (1u64 << run) - 1
+            };
             let mut acc = 0u64;
             for (wi, &xw) in x.words().iter().enumerate() {
                 let mut bits = xw;
@@ -413,7 +430,14 @@ impl<'a> PreparedPh<'a> {
             .for_each(|(ci, (a, b))| {
                 let mut pos = vec![0u64; tr.t];
                 for (j, (aj, bj)) in a.chunks_exact_mut(w).zip(b.chunks_exact_mut(w)).enumerate() {
-                    gather_ph(tr, seed.words(), (ci * TASK_BITS + j) as u64, &mut pos, aj, bj);
+                    gather_ph(
+                        tr,
+                        seed.words(),
+                        (ci * TASK_BITS + j) as u64,
+                        &mut pos,
+                        aj,
+                        bj,
+                    );
                 }
             });
         PreparedPh { tr, alphas, betas }

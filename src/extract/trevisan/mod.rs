@@ -155,15 +155,24 @@ impl TrevisanSpec {
     /// Checks the parameters and returns (t, q).
     pub fn resolve(&self) -> Result<(u64, u64), Error> {
         if self.n == 0 {
-            return Err(Error::new("input-bits", ErrorKind::TooSmall { value: 0, min: 1 }));
+            return Err(Error::new(
+                "input-bits",
+                ErrorKind::TooSmall { value: 0, min: 1 },
+            ));
         }
         if self.m == 0 {
-            return Err(Error::new("output-bits", ErrorKind::TooSmall { value: 0, min: 1 }));
+            return Err(Error::new(
+                "output-bits",
+                ErrorKind::TooSmall { value: 0, min: 1 },
+            ));
         }
         match self.one_bit {
             OneBit::Ph => {
                 if self.field_bits == 0 {
-                    return Err(Error::new("field-bits", ErrorKind::TooSmall { value: 0, min: 1 }));
+                    return Err(Error::new(
+                        "field-bits",
+                        ErrorKind::TooSmall { value: 0, min: 1 },
+                    ));
                 }
                 if self.field_bits > MAX_FIELD_BITS {
                     return Err(Error::new(
@@ -188,7 +197,10 @@ impl TrevisanSpec {
             }
         }
         if self.design_factor == 0 {
-            return Err(Error::new("design-factor", ErrorKind::TooSmall { value: 0, min: 1 }));
+            return Err(Error::new(
+                "design-factor",
+                ErrorKind::TooSmall { value: 0, min: 1 },
+            ));
         }
         let t = self.set_size() as u64;
         let q = match self.prime {
@@ -255,7 +267,12 @@ impl Trevisan {
         let (t, q) = spec.resolve()?;
         let design = Design::new(spec.design, spec.m as u64, t, q)?;
         if usize::try_from(design.seed_bits()).is_err() {
-            return Err(Error::new("design", ErrorKind::Overflow { what: "seed length d" }));
+            return Err(Error::new(
+                "design",
+                ErrorKind::Overflow {
+                    what: "seed length d",
+                },
+            ));
         }
         let (field, nb) = match spec.one_bit {
             OneBit::Ph => {

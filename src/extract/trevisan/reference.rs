@@ -94,7 +94,10 @@ pub fn groups(p: &Params, t: u64) -> Vec<RefGroup> {
 /// Seed length d.
 pub fn seed_bits(p: &Params) -> usize {
     let t = set_size(p);
-    groups(p, t as u64).iter().map(|g| (t as u64 * g.3) as usize).sum()
+    groups(p, t as u64)
+        .iter()
+        .map(|g| (t as u64 * g.3) as usize)
+        .sum()
 }
 
 /// t: 2l for PH, n for IP.
@@ -164,7 +167,9 @@ pub fn one_bit(p: &Params, x: &[bool], u: &[bool]) -> bool {
             let poly = FieldPoly::for_degree(l).expect("l in the table");
             let nb = x.len().div_ceil(l);
             let block = |k: usize| -> Vec<bool> {
-                (0..l).map(|j| x.get(k * l + j).copied().unwrap_or(false)).collect()
+                (0..l)
+                    .map(|j| x.get(k * l + j).copied().unwrap_or(false))
+                    .collect()
             };
             let alpha: Vec<bool> = u[..l].to_vec();
             let beta: Vec<bool> = u[l..2 * l].to_vec();
@@ -173,7 +178,9 @@ pub fn one_bit(p: &Params, x: &[bool], u: &[bool]) -> bool {
                 let t = field_mul(&poly, &v, &alpha);
                 v = t.iter().zip(block(k)).map(|(a, b)| a ^ b).collect();
             }
-            beta.iter().zip(&v).fold(false, |acc, (&b, &vj)| acc ^ (b && vj))
+            beta.iter()
+                .zip(&v)
+                .fold(false, |acc, (&b, &vj)| acc ^ (b && vj))
         }
     }
 }
