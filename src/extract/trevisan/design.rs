@@ -597,7 +597,7 @@ mod tests {
     #[test]
     fn real_parameter_sets_meet_the_bound() {
         // Closed form over every i for rows of the section 6 table, and brute
-        // force (explicit root counting of p_i - p_j on 0 .. t-1) for a
+        // force (explicit sets S_i and S_j, intersected by merging) for a
         // sample of i against every j < i.
         let rows: &[(DesignKind, u64, u64, u64)] = &[
             (DesignKind::Poly, 16353, 308, 311),

@@ -29,6 +29,8 @@ use crate::extract::SeededExtractor;
 #[cfg(target_arch = "x86_64")]
 use crate::gf2::field::pclmul_mul_body;
 use crate::gf2::field::{dispatch_width, mul_fixed, Field, Kernel, PortableKernel, Reducer};
+#[cfg(target_arch = "x86_64")]
+use crate::gf2::Backend;
 use rayon::prelude::*;
 
 /// Output bits per parallel task (one output word).
@@ -223,6 +225,13 @@ fn horner_fixed<const W: usize, const W2: usize>(
     let red = field.reducer();
     #[cfg(target_arch = "x86_64")]
     if field.fast_flags().1 {
+        if field.backend() == Backend::Vpclmul && std::is_x86_feature_detected!("avx512vl") {
+            // SAFETY: the Vpclmul backend is in use only when
+            // `Backend::is_supported` found pclmulqdq, vpclmulqdq and
+            // avx512f; avx512vl is checked just above.
+            unsafe { horner_pclmul_evex::<W, W2>(red, b, a, v) };
+            return;
+        }
         // SAFETY: the flag is set only when `PclmulKernel::new` returned
         // Some, after `Backend::is_supported` checked pclmulqdq and sse2.
         unsafe { horner_pclmul::<W, W2>(red, b, a, v) };
@@ -245,6 +254,29 @@ unsafe fn horner_pclmul<const W: usize, const W2: usize>(
     v: &mut [[u64; W]],
 ) {
     // SAFETY (for the macro's calls): this function has the features.
+    horner_body!(W, blocks, alphas, v, |x, a, b| {
+        let mut r: [u64; W] = pclmul_mul_body!(W, W2, red, x, a);
+        for j in 0..W {
+            r[j] ^= b[j];
+        }
+        r
+    })
+}
+
+/// [`horner_pclmul`] compiled for AVX-512VL: the same instructions with
+/// 32 vector registers and three-operand forms, which removes most spills
+/// of the four interleaved accumulators.
+///
+/// # Safety
+/// The CPU must support pclmulqdq, avx512f and avx512vl.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "pclmulqdq,sse2,avx2,avx512f,avx512vl")]
+unsafe fn horner_pclmul_evex<const W: usize, const W2: usize>(
+    red: &Reducer,
+    blocks: &[[u64; W]],
+    alphas: &[[u64; W]],
+    v: &mut [[u64; W]],
+) {
     horner_body!(W, blocks, alphas, v, |x, a, b| {
         let mut r: [u64; W] = pclmul_mul_body!(W, W2, red, x, a);
         for j in 0..W {
