@@ -562,18 +562,29 @@ macro_rules! pclmul_mul_body {
             va[i] = _mm_cvtsi64_si128(a[i] as i64);
             vb[i] = _mm_cvtsi64_si128(b[i] as i64);
         }
-        let mut acc = [_mm_setzero_si128(); $w2];
+        // Products with i + j = 2k go to lane k (words 2k, 2k + 1), those
+        // with i + j = 2k + 1 to `odd[k]` (words 2k + 1, 2k + 2), which is
+        // split across lanes k and k + 1 at the end.
+        let mut even = [_mm_setzero_si128(); $w];
+        let mut odd = [_mm_setzero_si128(); $w];
         for i in 0..$w {
             for j in 0..$w {
-                acc[i + j] = _mm_xor_si128(acc[i + j], _mm_clmulepi64_si128(va[i], vb[j], 0x00));
+                let pr = _mm_clmulepi64_si128(va[i], vb[j], 0x00);
+                if (i + j) % 2 == 0 {
+                    even[(i + j) / 2] = _mm_xor_si128(even[(i + j) / 2], pr);
+                } else {
+                    odd[(i + j) / 2] = _mm_xor_si128(odd[(i + j) / 2], pr);
+                }
             }
         }
+        for k in 0..$w - 1 {
+            even[k] = _mm_xor_si128(even[k], _mm_slli_si128(odd[k], 8));
+            even[k + 1] = _mm_xor_si128(even[k + 1], _mm_srli_si128(odd[k], 8));
+        }
         let mut p = [0u64; $w2];
-        for k in 0..$w2 - 1 {
-            let lo = _mm_cvtsi128_si64(acc[k]) as u64;
-            let hi = _mm_cvtsi128_si64(_mm_unpackhi_epi64(acc[k], acc[k])) as u64;
-            p[k] ^= lo;
-            p[k + 1] ^= hi;
+        for k in 0..$w {
+            // SAFETY: p has 2W words, so words 2k and 2k + 1 are in bounds.
+            _mm_storeu_si128(p.as_mut_ptr().add(2 * k) as *mut __m128i, even[k]);
         }
         $crate::gf2::field::reduce_fixed::<$w, $w2>($red, p)
     }};
