@@ -14,6 +14,7 @@
 pub mod modified_toeplitz;
 pub mod reference;
 pub mod toeplitz;
+pub mod trevisan;
 
 pub use modified_toeplitz::ModifiedToeplitz;
 pub use toeplitz::Toeplitz;

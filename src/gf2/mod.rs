@@ -20,3 +20,4 @@ pub mod middle;
 pub mod reference;
 
 pub use clmul::Backend;
+pub mod field;

@@ -1,0 +1,835 @@
+//! Finite fields GF(2^l) for 1 <= l <= 2048 (`spec/conventions.md`, "Finite
+//! fields GF(2^l)").
+//!
+//! An element a = a_0 + a_1 z + .. + a_{l-1} z^{l-1} is stored in
+//! `ceil(l/64)` words with a_j at bit `j % 64` of word `j / 64`, like
+//! [`crate::bits::Bits`]; bits at and above l are always zero. Arithmetic is
+//! modulo the field polynomial P_l of the conventions page: the trinomial
+//! z^l + z^k + 1 with the smallest k if one is irreducible, otherwise the
+//! pentanomial z^l + z^a + z^b + z^c + 1 with the smallest (a, b, c); P_1 =
+//! z + 1. The polynomials come from a generated table (`field_table.rs`, made
+//! by `src/bin/gen_field_table.rs` with the searches of [`search`]); the tests
+//! check every entry with Rabin's irreducibility test.
+//!
+//! Multiplication is a carry-less product of the word vectors
+//! ([`clmul_words`], the one function a faster multi-word product can
+//! replace) followed by a reduction by P_l that folds the part at and above
+//! z^l back with the low terms of P_l. The carry-less kernel is the
+//! [`Backend`] chosen once when the field is built; every backend gives the
+//! same elements (tested).
+
+// Fixed-width loops index several arrays by the same constant-bounded
+// counter on purpose (they unroll to fixed word positions).
+#![allow(clippy::needless_range_loop)]
+
+#[path = "field_search.rs"]
+pub mod search;
+#[path = "field_table.rs"]
+mod table;
+
+use crate::gf2::Backend;
+use std::fmt;
+
+/// Largest field size l supported.
+pub const MAX_FIELD_BITS: usize = table::MAX_DEGREE;
+/// Words in an element of the largest field.
+pub const MAX_WORDS: usize = MAX_FIELD_BITS.div_ceil(64);
+
+/// An error building a field.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+pub enum FieldError {
+    /// l outside 1 ..= [`MAX_FIELD_BITS`].
+    #[error("field size l = {l} bits is outside the supported range 1 ..= {max}")]
+    UnsupportedSize {
+        /// The size asked for.
+        l: usize,
+        /// The largest supported size.
+        max: usize,
+    },
+    /// The carry-less kernel asked for does not run on this CPU.
+    #[error("carry-less backend '{0}' is not supported by this CPU")]
+    BackendUnsupported(&'static str),
+}
+
+/// The field polynomial P_l (see the module docs).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+pub struct FieldPoly {
+    degree: usize,
+    middle: [usize; 3],
+    count: usize,
+}
+
+impl FieldPoly {
+    /// P_l from the table, or `None` outside 1 ..= [`MAX_FIELD_BITS`].
+    pub fn for_degree(l: usize) -> Option<FieldPoly> {
+        if l == 0 || l > MAX_FIELD_BITS {
+            return None;
+        }
+        let row = table::MIDDLE_EXPONENTS[l];
+        let middle = [row[0] as usize, row[1] as usize, row[2] as usize];
+        let count = if l == 1 {
+            0
+        } else if middle[1] == 0 {
+            1
+        } else {
+            3
+        };
+        Some(FieldPoly {
+            degree: l,
+            middle,
+            count,
+        })
+    }
+
+    /// The degree l.
+    pub fn degree(&self) -> usize {
+        self.degree
+    }
+
+    /// The exponents strictly between l and 0, highest first (one for a
+    /// trinomial, three for a pentanomial, none for P_1 = z + 1).
+    pub fn middle_exponents(&self) -> &[usize] {
+        &self.middle[..self.count]
+    }
+
+    /// Every exponent with a non-zero coefficient, highest first.
+    pub fn exponents(&self) -> Vec<usize> {
+        let mut e = vec![self.degree];
+        e.extend_from_slice(self.middle_exponents());
+        e.push(0);
+        e
+    }
+}
+
+impl fmt::Display for FieldPoly {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        for e in self.exponents() {
+            match e {
+                0 => write!(f, "1")?,
+                1 => write!(f, "z + ")?,
+                e => write!(f, "z^{e} + ")?,
+            }
+        }
+        Ok(())
+    }
+}
+
+/// Carry-less product `out = a * b` of word vectors (coefficient i at bit
+/// i % 64 of word i / 64), schoolbook over 64 x 64 products of `backend`.
+///
+/// This is the one word-level multiply of the field code, kept behind this
+/// function so that a faster multi-word product can replace it.
+///
+/// # Panics
+/// If `out.len() != a.len() + b.len()`, or the backend is not supported.
+pub fn clmul_words(backend: Backend, a: &[u64], b: &[u64], out: &mut [u64]) {
+    assert_eq!(
+        out.len(),
+        a.len() + b.len(),
+        "clmul_words: output needs {} words, got {}",
+        a.len() + b.len(),
+        out.len()
+    );
+    out.fill(0);
+    for (i, &x) in a.iter().enumerate() {
+        if x == 0 {
+            continue;
+        }
+        for (j, &y) in b.iter().enumerate() {
+            let (lo, hi) = backend.clmul64(x, y);
+            out[i + j] ^= lo;
+            out[i + j + 1] ^= hi;
+        }
+    }
+}
+
+/// Reduction constants of P_l shared by every multiplication.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(crate) struct Reducer {
+    /// l
+    l: usize,
+    /// Words of an element.
+    w: usize,
+    /// Exponents of P_l below l (including 0).
+    low: [usize; 4],
+    nlow: usize,
+    /// Middle exponents as shift amounts, when all are below 64.
+    mid: [u32; 3],
+    /// Number of middle exponents if all are below 64 (1 or 3), else 0.
+    small: usize,
+}
+
+impl Reducer {
+    fn new(poly: &FieldPoly) -> Reducer {
+        let mut low = [0usize; 4];
+        let mid = poly.middle_exponents();
+        low[..mid.len()].copy_from_slice(mid);
+        low[mid.len()] = 0;
+        let mut shifts = [0u32; 3];
+        for (s, &e) in shifts.iter_mut().zip(mid) {
+            *s = e as u32;
+        }
+        let small = if !mid.is_empty() && mid.iter().all(|&e| e < 64) {
+            mid.len()
+        } else {
+            0
+        };
+        Reducer {
+            l: poly.degree(),
+            w: poly.degree().div_ceil(64),
+            low,
+            nlow: mid.len() + 1,
+            mid: shifts,
+            small,
+        }
+    }
+
+    /// Whether two folds reduce any product (every low exponent e has
+    /// 2e - 2 < l); the fixed-width fast path needs this.
+    pub(crate) fn two_folds(&self) -> bool {
+        let top = self.low[..self.nlow].iter().copied().max().unwrap_or(0);
+        2 * top < self.l + 2
+    }
+
+    /// Reduces a product of `2w` words in place (generic, any l): the result
+    /// is in `p[..w]` and `p[w..]` is zero.
+    fn reduce_slice(&self, p: &mut [u64]) {
+        let l = self.l;
+        let (lw, ls) = (l / 64, l % 64);
+        let total = p.len();
+        let mut h = [0u64; MAX_WORDS + 1];
+        loop {
+            // h = p >> l
+            let hw = total - lw;
+            let mut any = 0u64;
+            for j in 0..hw {
+                let lo = p[lw + j] >> ls;
+                let hi = if ls != 0 && lw + j + 1 < total {
+                    p[lw + j + 1] << (64 - ls)
+                } else {
+                    0
+                };
+                h[j] = lo | hi;
+                any |= h[j];
+            }
+            if any == 0 {
+                return;
+            }
+            // clear bits >= l
+            if ls != 0 {
+                p[lw] &= (1u64 << ls) - 1;
+                p[lw + 1..].fill(0);
+            } else {
+                p[lw..].fill(0);
+            }
+            for &e in &self.low[..self.nlow] {
+                let (ew, es) = (e / 64, e % 64);
+                for j in 0..hw {
+                    if h[j] == 0 {
+                        continue;
+                    }
+                    if j + ew < total {
+                        p[j + ew] ^= h[j] << es;
+                    }
+                    if es != 0 && j + ew + 1 < total {
+                        p[j + ew + 1] ^= h[j] >> (64 - es);
+                    }
+                }
+            }
+        }
+    }
+}
+
+/// GF(2^l) with its field polynomial and carry-less backend.
+#[derive(Clone, Debug)]
+pub struct Field {
+    poly: FieldPoly,
+    backend: Backend,
+    red: Reducer,
+    /// Fixed-width path applies (two folds suffice).
+    fast: bool,
+    /// PCLMULQDQ detected for this backend.
+    pclmul: bool,
+}
+
+impl Field {
+    /// The field GF(2^l) with the fastest backend of this CPU.
+    pub fn new(l: usize) -> Result<Field, FieldError> {
+        Field::with_backend(l, Backend::detect())
+    }
+
+    /// The field GF(2^l) with a given backend (for tests and benches).
+    pub fn with_backend(l: usize, backend: Backend) -> Result<Field, FieldError> {
+        let poly = FieldPoly::for_degree(l).ok_or(FieldError::UnsupportedSize {
+            l,
+            max: MAX_FIELD_BITS,
+        })?;
+        if !backend.is_supported() {
+            return Err(FieldError::BackendUnsupported(backend.name()));
+        }
+        let red = Reducer::new(&poly);
+        #[cfg(target_arch = "x86_64")]
+        let pclmul = PclmulKernel::new(backend).is_some();
+        #[cfg(not(target_arch = "x86_64"))]
+        let pclmul = false;
+        Ok(Field {
+            poly,
+            backend,
+            red,
+            fast: red.two_folds(),
+            pclmul,
+        })
+    }
+
+    /// l, the number of bits of an element.
+    pub fn bits(&self) -> usize {
+        self.poly.degree()
+    }
+
+    /// Words of an element, ceil(l/64).
+    pub fn words(&self) -> usize {
+        self.red.w
+    }
+
+    /// The field polynomial.
+    pub fn poly(&self) -> &FieldPoly {
+        &self.poly
+    }
+
+    /// The carry-less backend.
+    pub fn backend(&self) -> Backend {
+        self.backend
+    }
+
+    pub(crate) fn reducer(&self) -> &Reducer {
+        &self.red
+    }
+
+    /// Whether the fixed-width fast path applies and PCLMULQDQ is in use.
+    pub(crate) fn fast_flags(&self) -> (bool, bool) {
+        (self.fast, self.pclmul)
+    }
+
+    /// `out = a * b` in GF(2^l). Operands must be reduced (no bits at or
+    /// above l); so is the result.
+    ///
+    /// # Panics
+    /// If a slice does not hold exactly [`Field::words`] words.
+    pub fn mul(&self, a: &[u64], b: &[u64], out: &mut [u64]) {
+        let w = self.red.w;
+        crate::extract::check_len("field element a (words)", w, a.len());
+        crate::extract::check_len("field element b (words)", w, b.len());
+        crate::extract::check_len("field element out (words)", w, out.len());
+        if self.fast {
+            dispatch_width!(w, mul_fast, (self, a, b, out), self.mul_generic(a, b, out))
+        } else {
+            self.mul_generic(a, b, out)
+        }
+    }
+
+    /// `out = a * b` by the generic path ([`clmul_words`] and a word-level
+    /// fold), for any l; the fast path of [`Field::mul`] is tested against it.
+    pub fn mul_generic(&self, a: &[u64], b: &[u64], out: &mut [u64]) {
+        let w = self.red.w;
+        let mut p = [0u64; 2 * MAX_WORDS];
+        let p = &mut p[..2 * w];
+        clmul_words(self.backend, a, b, p);
+        self.red.reduce_slice(p);
+        out.copy_from_slice(&p[..w]);
+    }
+
+    /// Reduces an arbitrary polynomial of `2 * words()` words modulo P_l
+    /// into `out` (for elements built from longer bit strings).
+    pub fn reduce_wide(&self, wide: &mut [u64], out: &mut [u64]) {
+        crate::extract::check_len("wide polynomial (words)", 2 * self.red.w, wide.len());
+        self.red.reduce_slice(wide);
+        out.copy_from_slice(&wide[..self.red.w]);
+    }
+}
+
+// ---- fixed-width fast path ------------------------------------------------
+
+/// A 64 x 64 carry-less kernel, chosen once.
+pub(crate) trait Kernel: Copy + Send + Sync {
+    fn clmul(self, a: u64, b: u64) -> (u64, u64);
+}
+
+/// Portable kernel.
+#[derive(Clone, Copy)]
+pub(crate) struct PortableKernel;
+
+impl Kernel for PortableKernel {
+    #[inline(always)]
+    fn clmul(self, a: u64, b: u64) -> (u64, u64) {
+        crate::gf2::clmul::portable::clmul64(a, b)
+    }
+}
+
+/// PCLMULQDQ kernel; a value exists only after run-time detection.
+#[cfg(target_arch = "x86_64")]
+#[derive(Clone, Copy)]
+pub(crate) struct PclmulKernel(());
+
+#[cfg(target_arch = "x86_64")]
+impl PclmulKernel {
+    pub(crate) fn new(backend: Backend) -> Option<PclmulKernel> {
+        (backend != Backend::Portable && Backend::Pclmul.is_supported()).then_some(PclmulKernel(()))
+    }
+}
+
+/// Fixed-width product and reduction: `W` words per element, `W2 = 2W`.
+/// Requires `Reducer::two_folds` (checked by the caller).
+#[inline(always)]
+pub(crate) fn mul_fixed<const W: usize, const W2: usize, K: Kernel>(
+    k: K,
+    red: &Reducer,
+    a: &[u64; W],
+    b: &[u64; W],
+) -> [u64; W] {
+    let mut p = [0u64; W2];
+    for i in 0..W {
+        for j in 0..W {
+            let (lo, hi) = k.clmul(a[i], b[j]);
+            p[i + j] ^= lo;
+            p[i + j + 1] ^= hi;
+        }
+    }
+    reduce_fixed::<W, W2>(red, p)
+}
+
+/// `acc ^= h * z^e` (bits pushed past `W2` words are dropped; callers keep
+/// degrees below that).
+#[inline(always)]
+fn xor_shifted<const W: usize, const W2: usize>(acc: &mut [u64; W2], h: &[u64; W], e: usize) {
+    let (ew, es) = (e / 64, (e % 64) as u32);
+    if es == 0 {
+        for j in 0..W {
+            if j + ew < W2 {
+                acc[j + ew] ^= h[j];
+            }
+        }
+    } else {
+        for j in 0..W {
+            if j + ew < W2 {
+                acc[j + ew] ^= h[j] << es;
+            }
+            if j + ew + 1 < W2 {
+                acc[j + ew + 1] ^= h[j] >> (64 - es);
+            }
+        }
+    }
+}
+
+/// Splits `p` at z^l: returns the part at and above z^l shifted down (W
+/// words suffice for the degrees that occur) and clears it in `p`.
+#[inline(always)]
+fn split_high<const W: usize, const W2: usize>(p: &mut [u64; W2], l: usize) -> [u64; W] {
+    let (lw, ls) = (l / 64, (l % 64) as u32);
+    let mut h = [0u64; W];
+    for j in 0..W {
+        let idx = lw + j;
+        let lo = if idx < W2 { p[idx] >> ls } else { 0 };
+        let hi = if ls != 0 && idx + 1 < W2 {
+            p[idx + 1] << (64 - ls)
+        } else {
+            0
+        };
+        h[j] = lo | hi;
+    }
+    for (i, word) in p.iter_mut().enumerate() {
+        if i > lw || (i == lw && ls == 0) {
+            *word = 0;
+        } else if i == lw {
+            *word &= (1u64 << ls) - 1;
+        }
+    }
+    h
+}
+
+/// Reduction when every middle exponent is below 64 (`NM` of them): the
+/// first fold moves W words, the second at most 62 bits, all at fixed word
+/// positions.
+#[inline(always)]
+fn reduce_small<const W: usize, const W2: usize, const NM: usize>(
+    red: &Reducer,
+    p: [u64; W2],
+) -> [u64; W] {
+    let ls = (red.l % 64) as u32;
+    let mut h = [0u64; W];
+    let mut r = [0u64; W];
+    r.copy_from_slice(&p[..W]);
+    let mask = if ls == 0 { u64::MAX } else { (1u64 << ls) - 1 };
+    if ls == 0 {
+        // l = 64 W
+        h.copy_from_slice(&p[W..]);
+    } else {
+        // l = 64 (W - 1) + ls
+        for j in 0..W {
+            h[j] = (p[W - 1 + j] >> ls) | (p[W + j] << (64 - ls));
+        }
+        r[W - 1] &= mask;
+    }
+    let mut over = 0u64;
+    for j in 0..W {
+        r[j] ^= h[j];
+    }
+    for &e in &red.mid[..NM] {
+        for j in 0..W {
+            r[j] ^= h[j] << e;
+            if j + 1 < W {
+                r[j + 1] ^= h[j] >> (64 - e);
+            } else {
+                over ^= h[j] >> (64 - e);
+            }
+        }
+    }
+    let h2 = if ls == 0 {
+        over
+    } else {
+        let v = (r[W - 1] >> ls) | (over << (64 - ls));
+        r[W - 1] &= mask;
+        v
+    };
+    r[0] ^= h2;
+    for &e in &red.mid[..NM] {
+        r[0] ^= h2 << e;
+        if W > 1 {
+            r[1] ^= h2 >> (64 - e);
+        }
+    }
+    r
+}
+
+/// Reduction of a `W2`-word product (degree <= 2l - 2) by P_l with two
+/// folds: z^l = (low terms of P_l), applied to the part above z^l, then once
+/// more to what the first fold pushed over z^l. Two folds suffice when every
+/// low exponent e has 2e - 2 < l (`Reducer::two_folds`).
+#[inline(always)]
+pub(crate) fn reduce_fixed<const W: usize, const W2: usize>(
+    red: &Reducer,
+    mut p: [u64; W2],
+) -> [u64; W] {
+    match red.small {
+        1 => return reduce_small::<W, W2, 1>(red, p),
+        3 => return reduce_small::<W, W2, 3>(red, p),
+        _ => {}
+    }
+    for _ in 0..2 {
+        let h = split_high::<W, W2>(&mut p, red.l);
+        for &e in &red.low[..red.nlow] {
+            xor_shifted::<W, W2>(&mut p, &h, e);
+        }
+    }
+    let mut r = [0u64; W];
+    r.copy_from_slice(&p[..W]);
+    r
+}
+
+/// Calls `$f::<W, 2W>($args)` for the element width `$w` in 1 ..= 9 and
+/// evaluates `$fallback` otherwise.
+macro_rules! dispatch_width {
+    ($w:expr, $f:ident, ($($args:expr),*), $fallback:expr) => {
+        match $w {
+            1 => $f::<1, 2>($($args),*),
+            2 => $f::<2, 4>($($args),*),
+            3 => $f::<3, 6>($($args),*),
+            4 => $f::<4, 8>($($args),*),
+            5 => $f::<5, 10>($($args),*),
+            6 => $f::<6, 12>($($args),*),
+            7 => $f::<7, 14>($($args),*),
+            8 => $f::<8, 16>($($args),*),
+            9 => $f::<9, 18>($($args),*),
+            _ => $fallback,
+        }
+    };
+}
+pub(crate) use dispatch_width;
+
+/// Body of the fixed-width PCLMULQDQ product and reduction, pasted into each
+/// `target_feature` function that needs it (a call would not inline: see
+/// [`mul_fixed_pclmul`]). Every 64 x 64 product stays in a 128-bit register
+/// and is XORed into the accumulator of its word offset; the words are taken
+/// out once at the end. Must be expanded inside `unsafe` code running with
+/// pclmulqdq and sse2 enabled.
+#[cfg(target_arch = "x86_64")]
+macro_rules! pclmul_mul_body {
+    ($w:ident, $w2:ident, $red:expr, $a:expr, $b:expr) => {{
+        use core::arch::x86_64::*;
+        let (a, b): (&[u64; $w], &[u64; $w]) = ($a, $b);
+        let mut va = [_mm_setzero_si128(); $w];
+        let mut vb = [_mm_setzero_si128(); $w];
+        for i in 0..$w {
+            va[i] = _mm_cvtsi64_si128(a[i] as i64);
+            vb[i] = _mm_cvtsi64_si128(b[i] as i64);
+        }
+        // Products with i + j = 2k go to lane k (words 2k, 2k + 1), those
+        // with i + j = 2k + 1 to `odd[k]` (words 2k + 1, 2k + 2), which is
+        // split across lanes k and k + 1 at the end.
+        let mut even = [_mm_setzero_si128(); $w];
+        let mut odd = [_mm_setzero_si128(); $w];
+        for i in 0..$w {
+            for j in 0..$w {
+                let pr = _mm_clmulepi64_si128(va[i], vb[j], 0x00);
+                if (i + j) % 2 == 0 {
+                    even[(i + j) / 2] = _mm_xor_si128(even[(i + j) / 2], pr);
+                } else {
+                    odd[(i + j) / 2] = _mm_xor_si128(odd[(i + j) / 2], pr);
+                }
+            }
+        }
+        for k in 0..$w - 1 {
+            even[k] = _mm_xor_si128(even[k], _mm_slli_si128(odd[k], 8));
+            even[k + 1] = _mm_xor_si128(even[k + 1], _mm_srli_si128(odd[k], 8));
+        }
+        let mut p = [0u64; $w2];
+        for k in 0..$w {
+            // SAFETY: p has 2W words, so words 2k and 2k + 1 are in bounds.
+            _mm_storeu_si128(p.as_mut_ptr().add(2 * k) as *mut __m128i, even[k]);
+        }
+        $crate::gf2::field::reduce_fixed::<$w, $w2>($red, p)
+    }};
+}
+#[cfg(target_arch = "x86_64")]
+pub(crate) use pclmul_mul_body;
+
+/// Fixed-width product and reduction with PCLMULQDQ (one call per product;
+/// hot loops paste [`pclmul_mul_body`] instead, because LLVM does not always
+/// inline a large `target_feature` function into its caller).
+///
+/// # Safety
+/// The CPU must support pclmulqdq and sse2 (see [`PclmulKernel::new`]).
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "pclmulqdq,sse2")]
+#[inline]
+pub(crate) unsafe fn mul_fixed_pclmul<const W: usize, const W2: usize>(
+    red: &Reducer,
+    a: &[u64; W],
+    b: &[u64; W],
+) -> [u64; W] {
+    pclmul_mul_body!(W, W2, red, a, b)
+}
+
+fn mul_fast<const W: usize, const W2: usize>(field: &Field, a: &[u64], b: &[u64], out: &mut [u64]) {
+    let a: &[u64; W] = a.try_into().expect("length checked");
+    let b: &[u64; W] = b.try_into().expect("length checked");
+    #[cfg(target_arch = "x86_64")]
+    if field.pclmul {
+        // SAFETY: `field.pclmul` is set only when `PclmulKernel::new`
+        // returned Some, after `Backend::is_supported` checked pclmulqdq and
+        // sse2.
+        let r = unsafe { mul_fixed_pclmul::<W, W2>(&field.red, a, b) };
+        out.copy_from_slice(&r);
+        return;
+    }
+    let r = mul_fixed::<W, W2, PortableKernel>(PortableKernel, &field.red, a, b);
+    out.copy_from_slice(&r);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Bit-by-bit product modulo P_l, straight from the definitions (oracle).
+    pub(crate) fn mul_bitwise(poly: &FieldPoly, a: &[bool], b: &[bool]) -> Vec<bool> {
+        let l = poly.degree();
+        let mut p = vec![false; 2 * l];
+        for i in 0..l {
+            for j in 0..l {
+                p[i + j] ^= a[i] & b[j];
+            }
+        }
+        let exps = poly.exponents();
+        for i in (l..2 * l).rev() {
+            if p[i] {
+                for &e in &exps {
+                    p[i - l + e] ^= true;
+                }
+            }
+        }
+        p.truncate(l);
+        p
+    }
+
+    fn to_bools(w: &[u64], l: usize) -> Vec<bool> {
+        (0..l).map(|i| (w[i / 64] >> (i % 64)) & 1 == 1).collect()
+    }
+
+    fn from_bools(b: &[bool]) -> Vec<u64> {
+        let mut w = vec![0u64; b.len().div_ceil(64)];
+        for (i, &v) in b.iter().enumerate() {
+            if v {
+                w[i / 64] |= 1 << (i % 64);
+            }
+        }
+        w
+    }
+
+    struct Rng(u64);
+    impl Rng {
+        fn next(&mut self) -> u64 {
+            // xorshift64* (common practice), fixed seed for repeatability
+            self.0 ^= self.0 >> 12;
+            self.0 ^= self.0 << 25;
+            self.0 ^= self.0 >> 27;
+            self.0.wrapping_mul(0x2545_f491_4f6c_dd1d)
+        }
+        fn element(&mut self, l: usize) -> Vec<u64> {
+            let mut w: Vec<u64> = (0..l.div_ceil(64)).map(|_| self.next()).collect();
+            if !l.is_multiple_of(64) {
+                *w.last_mut().unwrap() &= (1u64 << (l % 64)) - 1;
+            }
+            w
+        }
+    }
+
+    #[test]
+    fn fips197_aes_field_product() {
+        // NIST FIPS 197 (2001), section 4.2: in GF(2^8) with
+        // m(x) = x^8 + x^4 + x^3 + x + 1, {57} . {83} = {c1}.
+        let f = Field::new(8).unwrap();
+        assert_eq!(f.poly().exponents(), vec![8, 4, 3, 1, 0]);
+        let mut out = [0u64];
+        f.mul(&[0x57], &[0x83], &mut out);
+        assert_eq!(out[0], 0xc1);
+        // FIPS 197 section 4.2.1: {57} . {13} = {fe}.
+        f.mul(&[0x57], &[0x13], &mut out);
+        assert_eq!(out[0], 0xfe);
+    }
+
+    #[test]
+    fn published_field_polynomials() {
+        // NIST SP 800-38D (GCM), section 6.3: the field GF(2^128) is defined
+        // by 1 + x + x^2 + x^7 + x^128.
+        assert_eq!(
+            FieldPoly::for_degree(128).unwrap().exponents(),
+            vec![128, 7, 2, 1, 0]
+        );
+        // NIST FIPS 186 (binary curves, from memory): B-163 / K-163
+        // f(z) = z^163 + z^7 + z^6 + z^3 + 1; B-233 / K-233 z^233 + z^74 + 1;
+        // B-283 / K-283 z^283 + z^12 + z^7 + z^5 + 1.
+        assert_eq!(
+            FieldPoly::for_degree(163).unwrap().exponents(),
+            vec![163, 7, 6, 3, 0]
+        );
+        assert_eq!(
+            FieldPoly::for_degree(233).unwrap().exponents(),
+            vec![233, 74, 0]
+        );
+        assert_eq!(
+            FieldPoly::for_degree(283).unwrap().exponents(),
+            vec![283, 12, 7, 5, 0]
+        );
+        // spec/trevisan.md 9: P_16 = z^16 + z^5 + z^3 + z + 1 and
+        // P_24 = z^24 + z^4 + z^3 + z + 1.
+        assert_eq!(
+            FieldPoly::for_degree(16).unwrap().exponents(),
+            vec![16, 5, 3, 1, 0]
+        );
+        assert_eq!(
+            FieldPoly::for_degree(24).unwrap().exponents(),
+            vec![24, 4, 3, 1, 0]
+        );
+        // conventions.md: P_1 = z + 1.
+        assert_eq!(FieldPoly::for_degree(1).unwrap().exponents(), vec![1, 0]);
+        assert!(FieldPoly::for_degree(0).is_none());
+        assert!(FieldPoly::for_degree(MAX_FIELD_BITS + 1).is_none());
+    }
+
+    #[test]
+    fn every_table_entry_is_irreducible_by_rabin() {
+        for l in 1..=MAX_FIELD_BITS {
+            let p = FieldPoly::for_degree(l).unwrap();
+            assert!(
+                search::is_irreducible_rabin(&p.exponents()),
+                "P_{l} = {p} is not irreducible"
+            );
+        }
+    }
+
+    #[test]
+    fn every_table_entry_takes_the_two_fold_fast_path() {
+        // The smallest trinomial exponent is at most l/2 (z^l + z^k + 1 and
+        // z^l + z^(l-k) + 1 are reciprocal, common practice), and the table's
+        // pentanomials have small exponents; so two folds always suffice.
+        for l in 1..=MAX_FIELD_BITS {
+            let f = Field::new(l).unwrap();
+            assert!(f.reducer().two_folds(), "l = {l}: {}", f.poly());
+        }
+    }
+
+    #[test]
+    fn table_follows_the_rule_for_small_degrees() {
+        // Regenerates the start of the table with Rabin's test (the generator
+        // uses Ben-Or's) and compares; the whole table is compared by
+        // `gen_field_table --check`.
+        for l in 1..=200 {
+            let want = search::search_field_poly(l, search::is_irreducible_rabin).unwrap();
+            let p = FieldPoly::for_degree(l).unwrap();
+            assert_eq!(p.middle_exponents(), &want[..], "l = {l}");
+        }
+    }
+
+    #[test]
+    fn products_match_the_bitwise_oracle() {
+        let mut rng = Rng(0x1234_5678_9abc_def1);
+        let sizes: Vec<usize> = (1..=70)
+            .chain([
+                127, 128, 129, 163, 191, 192, 233, 255, 256, 261, 281, 283, 521, 1000, 2048,
+            ])
+            .collect();
+        for l in sizes {
+            for be in Backend::all_supported() {
+                let f = Field::with_backend(l, be).unwrap();
+                for _ in 0..8 {
+                    let a = rng.element(l);
+                    let b = rng.element(l);
+                    let mut out = vec![0u64; f.words()];
+                    f.mul(&a, &b, &mut out);
+                    let want =
+                        from_bools(&mul_bitwise(f.poly(), &to_bools(&a, l), &to_bools(&b, l)));
+                    assert_eq!(out, want, "l = {l}, backend {be:?}");
+                    f.mul_generic(&a, &b, &mut out);
+                    assert_eq!(out, want, "generic path, l = {l}, backend {be:?}");
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn field_axioms_on_random_elements() {
+        // Common practice: a * b = b * a, (a * b) * c = a * (b * c),
+        // a * (b + c) = a * b + a * c, a^(2^l) = a (Fermat).
+        let mut rng = Rng(42);
+        for l in [1usize, 2, 7, 64, 65, 130, 300] {
+            let f = Field::new(l).unwrap();
+            let w = f.words();
+            let (a, b, c) = (rng.element(l), rng.element(l), rng.element(l));
+            let mut ab = vec![0; w];
+            let mut ba = vec![0; w];
+            f.mul(&a, &b, &mut ab);
+            f.mul(&b, &a, &mut ba);
+            assert_eq!(ab, ba);
+            let mut abc = vec![0; w];
+            let mut bc = vec![0; w];
+            let mut a_bc = vec![0; w];
+            f.mul(&ab, &c, &mut abc);
+            f.mul(&b, &c, &mut bc);
+            f.mul(&a, &bc, &mut a_bc);
+            assert_eq!(abc, a_bc);
+            let bpc: Vec<u64> = b.iter().zip(&c).map(|(x, y)| x ^ y).collect();
+            let mut a_bpc = vec![0; w];
+            let mut ac = vec![0; w];
+            f.mul(&a, &bpc, &mut a_bpc);
+            f.mul(&a, &c, &mut ac);
+            let sum: Vec<u64> = ab.iter().zip(&ac).map(|(x, y)| x ^ y).collect();
+            assert_eq!(a_bpc, sum);
+            let mut x = a.clone();
+            for _ in 0..l {
+                let mut y = vec![0; w];
+                f.mul(&x, &x, &mut y);
+                x = y;
+            }
+            assert_eq!(x, a, "Frobenius, l = {l}");
+        }
+    }
+}
