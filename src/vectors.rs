@@ -30,6 +30,7 @@
 
 use crate::bits::digest::data_digest;
 use crate::bits::{BitOrder, Bits};
+use crate::extract::trevisan::{DesignKind, OneBit, Trevisan, TrevisanSpec};
 use crate::extract::{Engine, Extractor, ModifiedToeplitz, Toeplitz};
 use sha3::digest::{ExtendableOutput, Update, XofReader};
 use std::collections::BTreeMap;
@@ -273,8 +274,51 @@ pub fn build_extractor(case: &Case, engine: Engine) -> Result<Box<dyn Extractor>
         "modified-toeplitz" => Ok(Box::new(
             ModifiedToeplitz::with_engine(n, m, engine).map_err(|e| e.to_string())?,
         )),
+        "trevisan" => {
+            let spec = trevisan_spec(case)?;
+            let be = match engine {
+                Engine::Clmul(b) => b,
+                Engine::Fft => return Err("trevisan has no FFT engine".into()),
+            };
+            Ok(Box::new(
+                Trevisan::with_backend(&spec, be).map_err(|e| e.to_string())?,
+            ))
+        }
         other => Err(format!("unknown extractor {other:?}")),
     }
+}
+
+/// The Trevisan parameters of a case (`param one-bit`, `design`,
+/// `field-bits`, `design-factor`, `prime`).
+pub fn trevisan_spec(case: &Case) -> Result<TrevisanSpec, String> {
+    let get = |k: &str| case.params.get(k).map(String::as_str);
+    let num = |k: &str| -> Result<Option<u64>, String> {
+        get(k)
+            .map(|v| {
+                v.parse::<u64>()
+                    .map_err(|_| format!("param {k}: {v:?} is not a whole number"))
+            })
+            .transpose()
+    };
+    let one_bit = match get("one-bit") {
+        Some("ph") => OneBit::Ph,
+        Some("ip") => OneBit::Ip,
+        other => return Err(format!("param one-bit: {other:?}, expected ph or ip")),
+    };
+    let design = match get("design") {
+        Some("poly") => DesignKind::Poly,
+        Some("block") => DesignKind::Block,
+        other => return Err(format!("param design: {other:?}, expected poly or block")),
+    };
+    Ok(TrevisanSpec {
+        n: case.input_bits,
+        m: case.output_bits,
+        one_bit,
+        field_bits: num("field-bits")?.unwrap_or(0) as usize,
+        design,
+        design_factor: num("design-factor")?.unwrap_or(1),
+        prime: num("prime")?,
+    })
 }
 
 /// The engines a case is checked on: every supported one, except the
@@ -283,6 +327,7 @@ pub fn engines_for(case: &Case) -> Vec<Engine> {
     Engine::all_supported()
         .into_iter()
         .filter(|e| !(e.name() == "portable" && case.input_bits > 1 << 18))
+        .filter(|e| !(case.extractor == "trevisan" && *e == Engine::Fft))
         .filter(|e| {
             *e != Engine::Fft
                 || crate::gf2::fft::FftWindow::accepts(

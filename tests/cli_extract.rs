@@ -426,3 +426,68 @@ fn every_engine_writes_the_same_file() {
     assert!(outs.len() >= 2);
     assert!(outs.windows(2).all(|w| w[0] == w[1]));
 }
+
+#[test]
+fn trevisan_on_the_command_line_reproduces_the_published_vectors() {
+    // vectors/trevisan.vec: V1-V4 of spec/trevisan.md 9 and our own cases.
+    let text =
+        std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("vectors/trevisan.vec"))
+            .unwrap();
+    let cases = sluice::vectors::parse(&text).unwrap();
+    let d = tempfile::tempdir().unwrap();
+    let mut ran = 0;
+    for c in cases.iter().filter(|c| c.input_bits <= 1 << 16).take(8) {
+        let spec = sluice::vectors::trevisan_spec(c).unwrap();
+        let x = c.input.bits(c.input_bits).unwrap();
+        std::fs::write(d.path().join("in.txt"), x.to_ascii()).unwrap();
+        let plan = sluice::extract::trevisan::Trevisan::new(&spec).unwrap();
+        use sluice::extract::Extractor;
+        let s = c.seed.bits(plan.seed_bits()).unwrap();
+        std::fs::write(d.path().join("seed.bin"), s.to_packed(BitOrder::Msb)).unwrap();
+        let m = c.output_bits.to_string();
+        let mut args = vec![
+            "extract",
+            "in.txt",
+            "--format",
+            "ascii",
+            "--output-format",
+            "hex",
+            "--extractor",
+            "trevisan",
+        ];
+        let one_bit = c.params["one-bit"].clone();
+        let design = c.params["design"].clone();
+        let factor = c.params.get("design-factor").cloned().unwrap_or("1".into());
+        args.extend([
+            "--one-bit",
+            &one_bit,
+            "--design",
+            &design,
+            "--design-factor",
+            &factor,
+            "--output-bits",
+            &m,
+        ]);
+        let fb;
+        if let Some(l) = c.params.get("field-bits") {
+            fb = l.clone();
+            args.extend(["--field-bits", &fb]);
+        }
+        args.extend(["--seed-file", "seed.bin", "-o", "out.hex", "--quiet"]);
+        if let Some(q) = c.params.get("prime") {
+            // The default rule (smallest prime >= c t) must give the recorded q.
+            assert_eq!(q.parse::<u64>().unwrap(), plan.prime(), "{}", c.name);
+        }
+        let o = sluice(d.path(), &args);
+        assert!(
+            o.status.success(),
+            "{}: {}",
+            c.name,
+            String::from_utf8_lossy(&o.stderr)
+        );
+        let got = std::fs::read_to_string(d.path().join("out.hex")).unwrap();
+        assert_eq!(got.trim(), c.output.as_deref().unwrap(), "{}", c.name);
+        ran += 1;
+    }
+    assert!(ran >= 4);
+}

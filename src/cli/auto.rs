@@ -1,7 +1,7 @@
 //! Automatic extraction: size the output from the security inputs with the
 //! planner, check a certificate against the raw file, and write a receipt.
 
-use super::extract::{Common, ExtractorArg, Layout};
+use super::extract::{Common, DesignArg, ExtractorArg, Layout, OneBitArg, TrevisanArgs};
 use super::plan::{plan_error, speed_model, SecurityArgs};
 use anyhow::{bail, Context};
 use sluice::extract::Extractor;
@@ -12,6 +12,7 @@ use sluice::plan::compose;
 use sluice::plan::lhl::Family;
 use sluice::plan::round::up4;
 use sluice::plan::select::{self, Construction, NoSpeeds, Objective, Planned, SelectorInput};
+use sluice::plan::trevisan::{Design as PlanDesign, OneBit as PlanOneBit, TrevisanPlan};
 use std::collections::BTreeMap;
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -36,17 +37,53 @@ fn runnable(c: &Construction) -> Option<ExtractorArg> {
         Construction::Hash {
             family: Family::ModifiedToeplitz,
         } => Some(ExtractorArg::ModifiedToeplitz),
-        Construction::Trevisan { .. } => None,
+        Construction::Trevisan { .. } => Some(ExtractorArg::Trevisan),
     }
 }
 
-fn construction_of(e: ExtractorArg) -> Construction {
-    Construction::Hash {
-        family: match e {
-            ExtractorArg::Toeplitz => Family::Toeplitz,
-            ExtractorArg::ModifiedToeplitz => Family::ModifiedToeplitz,
+/// The extractor's parameters from the planner's Trevisan integers.
+fn trevisan_args(p: &TrevisanPlan) -> TrevisanArgs {
+    let f = &p.function;
+    TrevisanArgs {
+        one_bit: match f.one_bit {
+            PlanOneBit::Ph => OneBitArg::Ph,
+            PlanOneBit::Ip => OneBitArg::Ip,
         },
+        design: match f.design {
+            PlanDesign::Poly => DesignArg::Poly,
+            PlanDesign::Block => DesignArg::Block,
+        },
+        field_bits: f.l.unwrap_or(0) as usize,
+        design_factor: p.c,
+        prime: Some(f.q),
     }
+}
+
+fn construction_of(e: ExtractorArg, c: &Common) -> anyhow::Result<Construction> {
+    Ok(match e {
+        ExtractorArg::Toeplitz => Construction::Hash {
+            family: Family::Toeplitz,
+        },
+        ExtractorArg::ModifiedToeplitz => Construction::Hash {
+            family: Family::ModifiedToeplitz,
+        },
+        ExtractorArg::Trevisan => {
+            if c.field_bits.is_some() {
+                bail!("--field-bits: with the security inputs the planner chooses the field; leave it out");
+            }
+            Construction::Trevisan {
+                one_bit: match c.one_bit {
+                    Some(OneBitArg::Ip) => PlanOneBit::Ip,
+                    _ => PlanOneBit::Ph,
+                },
+                design: match c.design {
+                    Some(DesignArg::Block) => PlanDesign::Block,
+                    _ => PlanDesign::Poly,
+                },
+                c: c.design_factor.unwrap_or(1),
+            }
+        }
+    })
 }
 
 /// Sizes a run: the block layout, then the planner's choice among the
@@ -110,7 +147,7 @@ pub fn plan_run(c: &Common, sec: &SecurityArgs) -> anyhow::Result<(Layout, AutoP
     };
     let (construction, planned, reason) = match c.extractor {
         Some(e) => {
-            let cons = construction_of(e);
+            let cons = construction_of(e, c)?;
             let p = select::plan_one(&cons, &input, model)
                 .map_err(|e| plan_error(e, resolved.rate_given))?;
             (cons, p, "named with --extractor".to_string())
@@ -135,6 +172,7 @@ pub fn plan_run(c: &Common, sec: &SecurityArgs) -> anyhow::Result<(Layout, AutoP
     }
     let layout = Layout {
         extractor,
+        trevisan: planned.trevisan.as_ref().map(trevisan_args),
         m: usize::try_from(planned.m)?,
         block_bits: Some(usize::try_from(n)?),
         input_bits: Some(total),
@@ -200,6 +238,23 @@ fn pick(
 }
 
 impl AutoPlan {
+    /// The extractor-specific defining integers, as the vector files name them.
+    fn params(&self) -> BTreeMap<String, String> {
+        let mut p = BTreeMap::new();
+        if let Some(t) = self.planned.trevisan.as_ref().map(trevisan_args) {
+            p.insert("one-bit".into(), format!("{:?}", t.one_bit).to_lowercase());
+            p.insert("design".into(), format!("{:?}", t.design).to_lowercase());
+            if t.field_bits > 0 {
+                p.insert("field-bits".into(), t.field_bits.to_string());
+            }
+            p.insert("design-factor".into(), t.design_factor.to_string());
+            if let Some(q) = t.prime {
+                p.insert("prime".into(), q.to_string());
+            }
+        }
+        p
+    }
+
     /// Prints the choice and the error terms on standard error.
     pub fn print_summary(&self, quiet: bool) {
         let b = &self.input.budget;
@@ -270,7 +325,7 @@ impl AutoPlan {
                 input_bits: plan.input_bits() as u64,
                 output_bits: plan.output_bits() as u64,
                 seed_bits: plan.seed_bits() as u64,
-                params: BTreeMap::new(),
+                params: self.params(),
                 reason: self.reason.clone(),
             },
             blocks: receipt::Blocks {
@@ -336,14 +391,55 @@ pub fn layout_from_receipt(path: &Path) -> anyhow::Result<(Layout, String)> {
     let extractor = match r.construction.extractor.as_str() {
         "toeplitz" => ExtractorArg::Toeplitz,
         "modified-toeplitz" => ExtractorArg::ModifiedToeplitz,
+        "trevisan" => ExtractorArg::Trevisan,
         other => bail!(
             "{}: extractor {other:?} is not one this version runs",
             path.display()
         ),
     };
+    let trevisan = if extractor == ExtractorArg::Trevisan {
+        let p = &r.construction.params;
+        let get = |k: &str| p.get(k).map(String::as_str);
+        let num = |k: &str| -> anyhow::Result<Option<u64>> {
+            get(k)
+                .map(|v| {
+                    v.parse::<u64>().with_context(|| {
+                        format!(
+                            "{}: params.{k}: {v:?} is not a whole number",
+                            path.display()
+                        )
+                    })
+                })
+                .transpose()
+        };
+        Some(TrevisanArgs {
+            one_bit: match get("one-bit") {
+                Some("ph") => OneBitArg::Ph,
+                Some("ip") => OneBitArg::Ip,
+                other => bail!(
+                    "{}: params.one-bit: {other:?}, expected ph or ip",
+                    path.display()
+                ),
+            },
+            design: match get("design") {
+                Some("poly") => DesignArg::Poly,
+                Some("block") => DesignArg::Block,
+                other => bail!(
+                    "{}: params.design: {other:?}, expected poly or block",
+                    path.display()
+                ),
+            },
+            field_bits: num("field-bits")?.unwrap_or(0) as usize,
+            design_factor: num("design-factor")?.unwrap_or(1),
+            prime: num("prime")?,
+        })
+    } else {
+        None
+    };
     Ok((
         Layout {
             extractor,
+            trevisan,
             m: usize::try_from(r.construction.output_bits)?,
             block_bits: Some(usize::try_from(r.construction.input_bits)?),
             input_bits: Some(r.blocks.input_bits_total),

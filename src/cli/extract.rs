@@ -17,6 +17,36 @@ pub enum ExtractorArg {
     Toeplitz,
     /// Modified Toeplitz hashing [I | T'] (seed n - 1 bits, m < n)
     ModifiedToeplitz,
+    /// Trevisan-style extractor (needs --one-bit, --design, --field-bits for ph)
+    Trevisan,
+}
+
+/// One-bit extractor names.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum OneBitArg {
+    /// Polynomial hashing: Reed-Solomon over GF(2^l), then Hadamard
+    Ph,
+    /// Inner product
+    Ip,
+}
+
+/// Weak design names.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum DesignArg {
+    /// Graphs of polynomials over GF(q)
+    Poly,
+    /// Groups of polynomial designs on disjoint seed slices (r = 1)
+    Block,
+}
+
+/// The Trevisan parameters of a run.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct TrevisanArgs {
+    pub one_bit: OneBitArg,
+    pub design: DesignArg,
+    pub field_bits: usize,
+    pub design_factor: u64,
+    pub prime: Option<u64>,
 }
 
 /// Options shared by `extract` and `verify`.
@@ -33,6 +63,18 @@ pub struct Common {
     /// Format of the seed file
     #[arg(long = "seed-format", value_enum, default_value = "packed")]
     pub seed_format: FormatArg,
+    /// Trevisan: the one-bit extractor
+    #[arg(long = "one-bit", value_enum)]
+    pub one_bit: Option<OneBitArg>,
+    /// Trevisan: the weak design
+    #[arg(long, value_enum)]
+    pub design: Option<DesignArg>,
+    /// Trevisan: the design factor c (q = smallest prime >= c t)
+    #[arg(long = "design-factor", value_name = "C")]
+    pub design_factor: Option<u64>,
+    /// Trevisan: the field size l of the ph one-bit extractor
+    #[arg(long = "field-bits", value_name = "L")]
+    pub field_bits: Option<usize>,
     /// Use the first bits of a seed file that holds more than needed
     #[arg(long = "allow-longer-seed")]
     pub allow_longer_seed: bool,
@@ -109,6 +151,7 @@ struct Resolved {
 /// The extractor, its output size and the block layout of a run.
 pub struct Layout {
     pub extractor: ExtractorArg,
+    pub trevisan: Option<TrevisanArgs>,
     pub m: usize,
     pub block_bits: Option<usize>,
     pub input_bits: Option<u64>,
@@ -120,6 +163,7 @@ impl Layout {
         match (c.extractor, c.output_bits) {
             (Some(extractor), Some(m)) => Ok(Layout {
                 extractor,
+                trevisan: trevisan_args(c, extractor)?,
                 m,
                 block_bits: c.block_bits,
                 input_bits: c.input_bits,
@@ -134,6 +178,69 @@ impl Layout {
             ),
         }
     }
+}
+
+/// The Trevisan options, required exactly when the extractor is Trevisan.
+fn trevisan_args(c: &Common, e: ExtractorArg) -> anyhow::Result<Option<TrevisanArgs>> {
+    let given = c.one_bit.is_some()
+        || c.design.is_some()
+        || c.field_bits.is_some()
+        || c.design_factor.is_some();
+    if e != ExtractorArg::Trevisan {
+        if given {
+            bail!("--one-bit, --design, --design-factor and --field-bits apply to --extractor trevisan only");
+        }
+        return Ok(None);
+    }
+    let one_bit = c
+        .one_bit
+        .ok_or_else(|| anyhow::anyhow!("--extractor trevisan needs --one-bit ph|ip"))?;
+    let design = c
+        .design
+        .ok_or_else(|| anyhow::anyhow!("--extractor trevisan needs --design poly|block"))?;
+    let field_bits = match (one_bit, c.field_bits) {
+        (OneBitArg::Ph, Some(l)) => l,
+        (OneBitArg::Ph, None) => bail!("--one-bit ph needs --field-bits L (the field GF(2^L))"),
+        (OneBitArg::Ip, None) => 0,
+        (OneBitArg::Ip, Some(_)) => bail!("--field-bits applies to --one-bit ph only"),
+    };
+    Ok(Some(TrevisanArgs {
+        one_bit,
+        design,
+        field_bits,
+        design_factor: c.design_factor.unwrap_or(1),
+        prime: None,
+    }))
+}
+
+/// Plans a Trevisan extractor of n to m bits.
+pub fn trevisan_plan(
+    n: usize,
+    m: usize,
+    t: &TrevisanArgs,
+    engine: Engine,
+) -> anyhow::Result<Box<dyn Extractor>> {
+    use sluice::extract::trevisan::{DesignKind, OneBit, Trevisan, TrevisanSpec};
+    let spec = TrevisanSpec {
+        n,
+        m,
+        one_bit: match t.one_bit {
+            OneBitArg::Ph => OneBit::Ph,
+            OneBitArg::Ip => OneBit::Ip,
+        },
+        field_bits: t.field_bits,
+        design: match t.design {
+            DesignArg::Poly => DesignKind::Poly,
+            DesignArg::Block => DesignKind::Block,
+        },
+        design_factor: t.design_factor,
+        prime: t.prime,
+    };
+    let be = match engine {
+        Engine::Clmul(b) => b,
+        Engine::Fft => bail!("--engine fft applies to the Toeplitz families only; Trevisan runs on the carry-less backends"),
+    };
+    Ok(Box::new(Trevisan::with_backend(&spec, be)?))
 }
 
 fn resolve(c: &Common, l: &Layout) -> anyhow::Result<Resolved> {
@@ -200,6 +307,15 @@ fn resolve(c: &Common, l: &Layout) -> anyhow::Result<Resolved> {
                 bail!("--output-bits {m} must be smaller than the input block of {n} bits for modified Toeplitz hashing");
             }
             Box::new(ModifiedToeplitz::with_engine(n, m, c.engine)?)
+        }
+        ExtractorArg::Trevisan => {
+            // The function is defined for any m (spec/trevisan.md 2); the
+            // planner keeps m below the min-entropy.
+            let t = l
+                .trevisan
+                .as_ref()
+                .expect("trevisan layouts carry their parameters");
+            trevisan_plan(n, m, t, c.engine)?
         }
     };
     let seed = pipeline::read_seed(
