@@ -28,6 +28,8 @@ pub mod bits;
 pub mod certify;
 pub mod extract;
 pub mod gf2;
+pub mod ledger;
 pub mod pipeline;
 pub mod plan;
+pub mod seed;
 pub mod vectors;

@@ -9,6 +9,8 @@
 
 pub mod atomic;
 pub mod receipt;
+#[doc(hidden)]
+pub mod test_hook;
 
 use crate::bits::io::{open_input, BitWriter, BlockReader};
 use crate::bits::{BitOrder, Bits, Error as BitsError, ErrorKind as BitsErrorKind, Format};
