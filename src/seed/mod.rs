@@ -162,6 +162,31 @@ impl Store {
     /// and then, under the journal lock, the seed-created record. Returns
     /// the new random identifier.
     pub fn register(&self, bits: &Bits, origin: Origin, budget: f64) -> Result<String, Error> {
+        let (id, body) = self.prepare(bits, origin, budget)?;
+        let res = self
+            .ledger
+            .append(|_| Ok::<_, ledger::Error>((vec![body], ())));
+        if let Err(e) = res {
+            self.discard(&id);
+            return Err(e.into());
+        }
+        Ok(id)
+    }
+
+    /// Removes the store file of a seed whose registration failed.
+    pub fn discard(&self, id: &str) {
+        let _ = std::fs::remove_file(self.path_of(id));
+    }
+
+    /// Writes the store file of a new seed and returns its identifier and
+    /// the seed-created record, for the caller to append (with
+    /// [`Store::discard`] if the append fails).
+    pub fn prepare(
+        &self,
+        bits: &Bits,
+        origin: Origin,
+        budget: f64,
+    ) -> Result<(String, Body), Error> {
         check_budget(budget)?;
         if bits.is_empty() {
             return Err(Error::Bad {
@@ -231,15 +256,7 @@ impl Store {
             origin: origin_text,
             budget,
         };
-        let res = self
-            .ledger
-            .append(|_| Ok::<_, ledger::Error>((vec![body], ())));
-        if let Err(e) = res {
-            // Not registered: the store file must not linger.
-            let _ = std::fs::remove_file(&path);
-            return Err(e.into());
-        }
-        Ok(id)
+        Ok((id, body))
     }
 
     /// Reads a stored seed and checks its digest and length.
