@@ -335,3 +335,193 @@ fn describe(b: &Body) -> String {
         } => format!("repair: dropped a torn tail of {dropped_bytes} bytes (copy {copy})"),
     }
 }
+
+#[derive(serde::Serialize)]
+struct LedgeredJson<'a> {
+    extractor: &'static str,
+    output: &'a Path,
+    receipt: &'a Path,
+    seed: &'a str,
+    new_seed: bool,
+    #[serde(rename = "use")]
+    use_id: &'a str,
+    charged: f64,
+    eps_total: f64,
+    seed_uses: u64,
+    seed_spent: f64,
+    seed_left: f64,
+    #[serde(flatten)]
+    report: &'a pipeline::Report,
+}
+
+/// `sluice extract --seed ID | --new-seed`: an automatic run whose use is
+/// reserved in the ledger before any output exists and committed after the
+/// output is durably renamed (the order is kept by
+/// `sluice::pipeline::ledgered`).
+pub fn run_extract(a: super::extract::ExtractArgs) -> anyhow::Result<ExitCode> {
+    use sluice::seed::{Origin, Store};
+    let c = &a.common;
+    let lu = &a.ledgered;
+    if !a.security.any_given() {
+        bail!(
+            "--seed and --new-seed charge the use's error to the seed: give the security inputs \
+             (--min-entropy, --min-entropy-rate or --certificate, and --target-error) so the planner computes it"
+        );
+    }
+    if a.output.as_os_str() == "-" {
+        bail!("a run recorded in the ledger writes a file (its digest is recorded): give -o FILE");
+    }
+    let ledger = Ledger::new(ledger_dir(lu.ledger.as_deref())?);
+    let store = Store::new(ledger.clone());
+    // A journal that does not verify stops everything before any work.
+    let replay = ledger.read()?;
+    if let Some(p) = replay.problem {
+        bail!("{p}");
+    }
+    let (deficiency, eps_seed, stored, source) = match &lu.seed {
+        Some(id) => {
+            let s = replay.state.seed(id)?;
+            if let Some(l) = s.retired_line {
+                bail!("seed {id} was retired (line {l}) and may not be used");
+            }
+            (
+                s.deficiency,
+                s.eps_seed,
+                Some(store.load(id)?.bits),
+                s.source.clone(),
+            )
+        }
+        None => (0.0, 0.0, None, "os".to_string()),
+    };
+    let (layout, plan) = super::auto::plan_run_seeded(c, &a.security, deficiency, eps_seed)?;
+    let seed_bits = match stored {
+        Some(b) => b,
+        None => Store::os_bits(usize::try_from(plan.seed_bits())?)?,
+    };
+    let r = super::extract::resolve(c, &layout, Some(&seed_bits))?;
+    common::print_cautions(c.quiet);
+    plan.print_summary(c.quiet);
+    let (seed_id, extra) = match &lu.seed {
+        Some(id) => (id.clone(), vec![]),
+        None => {
+            let budget = lu.seed_budget.unwrap_or(sluice::seed::DEFAULT_BUDGET);
+            let (id, body) = store.prepare(&seed_bits, Origin::Os, budget)?;
+            (id, vec![body])
+        }
+    };
+    let n = r.plan.input_bits() as u64;
+    let spec = sluice::pipeline::ledgered::UseSpec {
+        seed: seed_id.clone(),
+        construction: r.plan.name().to_string(),
+        params: [
+            ("n".to_string(), n),
+            ("m".to_string(), r.plan.output_bits() as u64),
+            ("d".to_string(), r.plan.seed_bits() as u64),
+        ]
+        .into_iter()
+        .collect(),
+        input_digest: plan.input_digest().to_string(),
+        blocks: layout.input_bits.unwrap_or(n) / n,
+        seed_bits: r.plan.seed_bits() as u64,
+        error: plan.seed_charge(),
+        device_independent: plan.device_independent(),
+        cross_run_asserted: lu.cross_run,
+        repeat_reason: lu.repeat_reason.clone(),
+    };
+    let receipt_path = match &a.receipt {
+        Some(p) => p.clone(),
+        None => {
+            let mut s = a.output.clone().into_os_string();
+            s.push(".receipt.json");
+            PathBuf::from(s)
+        }
+    };
+    let output = c.files.output(&a.output);
+    let pb = common::progress(layout.input_bits.unwrap_or(0), "extracting");
+    let run = pipeline::Run {
+        input: r.source,
+        input_bits: layout.input_bits,
+        extractor: r.plan.as_ref(),
+        seed: &r.seed,
+        output: output.clone(),
+    };
+    let after = |report: &pipeline::Report| -> Result<(String, Option<String>), String> {
+        let out_digest =
+            pipeline::digest_prefix(&output, report.output_bits).map_err(|e| e.to_string())?;
+        let in_receipt = a.receipt_output_digest.then(|| out_digest.clone());
+        plan.write_receipt(
+            &receipt_path,
+            r.plan.as_ref(),
+            report,
+            c,
+            in_receipt,
+            Some((&seed_id, &source)),
+        )
+        .map_err(|e| format!("{e:#}"))?;
+        let bytes =
+            std::fs::read(&receipt_path).map_err(|e| format!("{}: {e}", receipt_path.display()))?;
+        Ok((out_digest, Some(blake3::hash(&bytes).to_hex().to_string())))
+    };
+    let res = sluice::pipeline::ledgered::execute(
+        &ledger,
+        &spec,
+        extra,
+        &run,
+        |d| pb.set_position(d),
+        after,
+    );
+    pb.finish_and_clear();
+    let out = match res {
+        Ok(o) => o,
+        Err(e) => {
+            if lu.new_seed && matches!(e, sluice::pipeline::ledgered::Error::Ledger(_)) {
+                store.discard(&seed_id);
+            }
+            return Err(e.into());
+        }
+    };
+    let s = &out.seed_state;
+    if c.json {
+        common::print_json(&LedgeredJson {
+            extractor: r.plan.name(),
+            output: &a.output,
+            receipt: &receipt_path,
+            seed: &seed_id,
+            new_seed: lu.new_seed,
+            use_id: &out.use_id,
+            charged: spec.error,
+            eps_total: plan.eps_total(),
+            seed_uses: s.uses,
+            seed_spent: s.spent,
+            seed_left: s.left(),
+            report: &out.report,
+        })?;
+    } else {
+        eprintln!(
+            "{}",
+            super::extract::describe(&out.report, c, r.plan.as_ref())
+        );
+        eprintln!("wrote {} (owner-only permissions)", a.output.display());
+        eprintln!(
+            "wrote {} (private: it holds a digest of the raw input)",
+            receipt_path.display()
+        );
+        eprintln!(
+            "seed {seed_id}: this use charged {:e}; {} use(s), spent {:e} of {:e}, left {:e}",
+            spec.error,
+            s.uses,
+            s.spent,
+            s.budget,
+            s.left()
+        );
+        if let Some(r) = &spec.repeat_reason {
+            eprintln!(
+                "override: extracting again from raw data already used, reason recorded: {r:?}"
+            );
+        }
+        if spec.cross_run_asserted {
+            eprintln!("asserted: the certificate conditions on the earlier runs' raw outputs (hashing spec 4.1 rule 3)");
+        }
+    }
+    Ok(ExitCode::SUCCESS)
+}
