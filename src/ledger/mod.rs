@@ -246,6 +246,12 @@ impl Ledger {
             }
             if !text.is_empty() {
                 crate::pipeline::test_hook::point("journal-write");
+                if crate::pipeline::test_hook::tear("journal-write") {
+                    let half = &text.as_bytes()[..text.len() / 2];
+                    let _ = f.write_all(half);
+                    let _ = f.sync_all();
+                    std::process::abort();
+                }
                 f.write_all(text.as_bytes()).map_err(|e| self.err(e))?;
                 f.sync_all().map_err(|e| self.err(e))?;
             }

@@ -1,5 +1,6 @@
 //! Test-only fault injection (hidden, unstable): with the environment
-//! variable `SLUICE_TEST_HOOK` set to `POINT:abort` or `POINT:pause=MS`
+//! variable `SLUICE_TEST_HOOK` set to `POINT:abort`, `POINT:pause=MS` or
+//! `journal-write:tear` (write half a journal append, then abort)
 //! (several, comma-separated), the process aborts (as if killed) or sleeps
 //! when it reaches the named point. Points: `before-reserve`,
 //! `after-reserve`, `during-write`, `after-rename`, `before-commit`,
@@ -32,4 +33,10 @@ pub fn point(name: &str) {
             }
         }
     }
+}
+
+/// Whether the hook asks to tear the journal append at `name`.
+#[doc(hidden)]
+pub fn tear(name: &str) -> bool {
+    std::env::var(VAR).is_ok_and(|spec| spec.split(',').any(|i| i == format!("{name}:tear")))
 }
