@@ -262,7 +262,7 @@ impl Ledger {
     }
 
     /// Removes a torn last line (and nothing else) after copying the journal
-    /// to `journal.jsonl.before-repair-TIME`, then records the repair.
+    /// to `journal.jsonl.before-repair-TIME-RANDOM`, then records the repair.
     /// Returns the copy's path and the bytes dropped.
     pub fn repair(&self) -> Result<(PathBuf, u64), Error> {
         let path = self.journal_path();
@@ -286,9 +286,11 @@ impl Ledger {
                     },
                 })));
             };
-            let copy = self
-                .dir
-                .join(format!("{JOURNAL_FILE}.before-repair-{}", now()));
+            let copy = self.dir.join(format!(
+                "{JOURNAL_FILE}.before-repair-{}-{}",
+                now(),
+                &random_id()?[..8]
+            ));
             let mut c = OpenOptions::new();
             c.write(true).create_new(true);
             #[cfg(unix)]
