@@ -356,3 +356,97 @@ fn budget_only_lowered_and_retired_seed_refused() {
     assert!(!show.contains("bits (hex"), "{show}");
     assert!(ok(&l, &["seed", "list"]).contains("retired"));
 }
+
+#[test]
+fn recycled_seed_needs_the_assertion_and_is_cut_from_the_output() {
+    let dir = tempfile::tempdir().unwrap();
+    let l = dir.path().join("L");
+    let out = dir.path().join("out.bin");
+    std::fs::write(&out, [0xa5u8; 16]).unwrap();
+    let e = fail(
+        &l,
+        &[
+            "seed",
+            "recycle",
+            out.to_str().unwrap(),
+            "--bits",
+            "40",
+            "--output-error",
+            "1e-9",
+        ],
+    );
+    assert!(
+        e.contains("--assert-recycling-condition") && e.contains("4.2"),
+        "{e}"
+    );
+    assert!(!l.exists());
+    // Larger than the output: compose::recycle refuses (d_B <= |Z_A|, 4.2).
+    let e = fail(
+        &l,
+        &[
+            "seed",
+            "recycle",
+            out.to_str().unwrap(),
+            "--bits",
+            "200",
+            "--output-error",
+            "1e-9",
+            "--assert-recycling-condition",
+        ],
+    );
+    assert!(!e.is_empty());
+    assert_eq!(std::fs::read(&out).unwrap(), [0xa5u8; 16]);
+    let v: serde_json::Value = serde_json::from_str(&ok(
+        &l,
+        &[
+            "seed",
+            "recycle",
+            out.to_str().unwrap(),
+            "--bits",
+            "40",
+            "--output-error",
+            "1e-9",
+            "--assert-recycling-condition",
+            "--json",
+        ],
+    ))
+    .unwrap();
+    // The cut bits are no longer delivered: 128 - 40 = 88 bits = 11 bytes.
+    assert_eq!(std::fs::read(&out).unwrap(), [0xa5u8; 11]);
+    let s = seed_state(&l, v["seed"].as_str().unwrap());
+    assert_eq!(s["source"], "recycled");
+    assert_eq!(s["bits"], 40);
+    assert_eq!(s["eps_seed"].as_f64().unwrap(), 1e-9);
+}
+
+#[test]
+fn explicit_seed_file_mode_records_nothing() {
+    let dir = tempfile::tempdir().unwrap();
+    let l = dir.path().join("L");
+    let mut rng = Rng(23);
+    let raw = raw_file(dir.path(), "raw.bin", &mut rng);
+    let seed = dir.path().join("s.bin");
+    std::fs::write(&seed, [0x3cu8; 64]).unwrap();
+    let out = dir.path().join("o.bin");
+    ok(
+        &l,
+        &[
+            "extract",
+            raw.to_str().unwrap(),
+            "-o",
+            out.to_str().unwrap(),
+            "--seed-file",
+            seed.to_str().unwrap(),
+            "--allow-longer-seed",
+            "--min-entropy",
+            "400",
+            "--target-error",
+            "1e-9",
+            "--quiet",
+        ],
+    );
+    assert!(out.exists());
+    assert!(!l.exists(), "the explicit mode must not touch the ledger");
+    let r = std::fs::read_to_string(format!("{}.receipt.json", out.display())).unwrap();
+    assert!(r.contains("\"id\": null"), "{r}");
+}

@@ -218,6 +218,9 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
                     sluice::plan::compose::RECYCLING_CONDITION
                 );
             }
+            if !(output_error.is_finite() && (0.0..1.0).contains(&output_error)) {
+                bail!("--output-error {output_error}: give the earlier output's total error, a number in [0, 1)");
+            }
             let all = sluice::bits::io::read_bits(
                 &output,
                 sluice::bits::Format::Packed,
@@ -228,6 +231,12 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
             let r = sluice::plan::compose::recycle(all.len() as u64, bits as u64, true)?;
             let keep = r.delivered_bits as usize;
             let s = all.slice(keep, bits);
+            // The seed bits are public from now on: never delivered, so
+            // they leave the output before they become a seed (a failure in
+            // between loses them; it never delivers them twice).
+            let mut f = AtomicFile::create(&output, true)?;
+            f.write_all(&all.slice(0, keep).to_packed(BitOrder::Msb))?;
+            f.commit()?;
             let id = store.register(
                 &s,
                 Origin::Recycled {
@@ -237,10 +246,6 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
                 },
                 budget_or(budget),
             )?;
-            // The seed bits are public from now on: never delivered.
-            let mut f = AtomicFile::create(&output, true)?;
-            f.write_all(&all.slice(0, keep).to_packed(BitOrder::Msb))?;
-            f.commit()?;
             if !json {
                 println!(
                     "{} now holds the first {keep} bits only (rounded up to whole bytes with zero bits); the cut bits are seed {id}",

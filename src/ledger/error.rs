@@ -71,6 +71,12 @@ pub enum ErrorKind {
     },
 }
 
+/// The first 12 hex digits of a data digest: enough to find the record in
+/// the private journal, without repeating the whole digest in messages.
+fn short(d: &str) -> &str {
+    d.get(..12).unwrap_or(d)
+}
+
 /// A rule a record breaks (`spec/hashing-and-composition.md` 4.1-4.6).
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum Rule {
@@ -131,13 +137,13 @@ pub enum Rule {
         line: u64,
     },
     /// The raw data were never committed.
-    #[error("timing rule (hashing spec 4.1, 4.6): raw data {digest} were not committed to the ledger before this use; run `sluice ledger commit-raw FILE` when the data are produced")]
+    #[error("timing rule (hashing spec 4.1, 4.6): raw data {}.. were not committed to the ledger before this use; run `sluice ledger commit-raw FILE` when the data are produced", short(digest))]
     RawNotCommitted {
         /// Data digest.
         digest: String,
     },
     /// The raw data were committed after the seed was disclosed.
-    #[error("timing rule (hashing spec 4.1, 4.6): seed {seed} was disclosed at line {disclosed_line}, before the raw data {digest} were committed at line {raw_line}; a seed may only be used on raw data fixed before its disclosure")]
+    #[error("timing rule (hashing spec 4.1, 4.6): seed {seed} was disclosed at line {disclosed_line}, before the raw data {}.. were committed at line {raw_line}; a seed may only be used on raw data fixed before its disclosure", short(digest))]
     DisclosedBeforeRaw {
         /// Seed identifier.
         seed: String,
@@ -149,7 +155,7 @@ pub enum Rule {
         raw_line: u64,
     },
     /// The raw data were already extracted from.
-    #[error("one extraction per raw data (hashing spec 4.6): raw data {digest} were already used at line {line}; extracting again needs an override that names the reason")]
+    #[error("one extraction per raw data (hashing spec 4.6): raw data {}.. were already used at line {line}; extracting again needs an override that names the reason (--repeat-reason TEXT, recorded)", short(digest))]
     RawAlreadyUsed {
         /// Data digest.
         digest: String,
