@@ -326,3 +326,22 @@ fn device_independent_seed_is_one_run_only() {
     }
     l.append(|_| Ok::<_, Error>((vec![b], ()))).unwrap();
 }
+
+proptest::proptest! {
+    #![proptest_config(proptest::prelude::ProptestConfig::with_cases(200))]
+    /// Any change of one byte before the last line is detected, at the
+    /// changed line or the next (the next line's `prev` no longer matches).
+    #[test]
+    fn any_one_byte_change_is_detected(pos in 0usize..10_000, xor in 1u8..=255) {
+        let (_d, l) = sample();
+        let mut b = std::fs::read(l.journal_path()).unwrap();
+        let last_start = b[..b.len() - 1].iter().rposition(|&c| c == b'\n').unwrap() + 1;
+        let at = pos % last_start;
+        b[at] ^= xor;
+        let r = replay(&b);
+        let line_of = 1 + b[..at].iter().filter(|&&c| c == b'\n').count() as u64;
+        let p = r.problem.expect("detected");
+        let bad = p.line().unwrap();
+        proptest::prop_assert!(bad == line_of || bad == line_of + 1, "changed line {line_of}, named {bad}: {p}");
+    }
+}
