@@ -12,7 +12,7 @@ fn filled(uses: usize) -> (tempfile::TempDir, Ledger) {
     let l = Ledger::new(dir.path());
     let mut bodies = vec![Body::SeedCreated {
         seed: SEED.into(),
-        bits: 4096,
+        bits: 2_000_000,
         source: "os".into(),
         deficiency: 0.0,
         eps_seed: 0.0,
