@@ -450,3 +450,74 @@ fn explicit_seed_file_mode_records_nothing() {
     let r = std::fs::read_to_string(format!("{}.receipt.json", out.display())).unwrap();
     assert!(r.contains("\"id\": null"), "{r}");
 }
+
+#[test]
+fn new_seed_run_records_the_seed_and_the_receipt_names_it() {
+    let dir = tempfile::tempdir().unwrap();
+    let l = dir.path().join("L");
+    let mut rng = Rng(29);
+    let raw = raw_file(dir.path(), "raw.bin", &mut rng);
+    ok(
+        &l,
+        &[
+            "ledger",
+            "commit-raw",
+            raw.to_str().unwrap(),
+            "--origin",
+            "x",
+        ],
+    );
+    let out = dir.path().join("o.bin");
+    let v: serde_json::Value = serde_json::from_str(&ok(
+        &l,
+        &[
+            "extract",
+            raw.to_str().unwrap(),
+            "-o",
+            out.to_str().unwrap(),
+            "--new-seed",
+            "--seed-budget",
+            "1e-8",
+            "--min-entropy",
+            "400",
+            "--target-error",
+            "1e-9",
+            "--quiet",
+            "--json",
+        ],
+    ))
+    .unwrap();
+    let id = v["seed"].as_str().unwrap();
+    // conventions.md: a random 32-hex identifier; the receipt carries it.
+    assert!(id.len() == 32 && id.bytes().all(|b| b"0123456789abcdef".contains(&b)));
+    let r: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(format!("{}.receipt.json", out.display())).unwrap(),
+    )
+    .unwrap();
+    assert_eq!(r["seed"]["id"], id);
+    assert_eq!(r["seed"]["bits"], 511);
+    let s = seed_state(&l, id);
+    assert_eq!(
+        (
+            s["uses"].as_u64(),
+            s["committed"].as_u64(),
+            s["bits"].as_u64()
+        ),
+        (Some(1), Some(1), Some(511))
+    );
+    assert_eq!(s["budget"].as_f64().unwrap(), 1e-8);
+    // The receipt digest in the ledger is BLAKE3 of the receipt file.
+    let recs: serde_json::Value =
+        serde_json::from_str(&ok(&l, &["ledger", "export", "--json"])).unwrap();
+    let commit = recs["records"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["kind"] == "use-committed")
+        .unwrap();
+    let bytes = std::fs::read(format!("{}.receipt.json", out.display())).unwrap();
+    assert_eq!(
+        commit["receipt_digest"],
+        blake3::hash(&bytes).to_hex().to_string()
+    );
+}

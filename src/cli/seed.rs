@@ -108,6 +108,9 @@ enum Cmd {
         /// How it was disclosed (free text, recorded)
         #[arg(long, default_value = "revealed by the operator")]
         how: String,
+        /// Print JSON
+        #[arg(long)]
+        json: bool,
     },
     /// Lower a seed's budget (budgets are never raised)
     Budget {
@@ -116,11 +119,17 @@ enum Cmd {
         /// The new, lower budget in (0, 1)
         #[arg(value_parser = parse_budget)]
         budget: f64,
+        /// Print JSON
+        #[arg(long)]
+        json: bool,
     },
     /// Retire a seed: no further use is allowed
     Retire {
         /// Seed identifier
         id: String,
+        /// Print JSON
+        #[arg(long)]
+        json: bool,
     },
 }
 
@@ -327,22 +336,35 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
                 }
             }
         }
-        Cmd::Reveal { id, output, how } => {
+        Cmd::Reveal {
+            id,
+            output,
+            how,
+            json,
+        } => {
             let seed = store.load(&id)?;
             checked(&ledger)?.seed(&id)?;
             // Record first: the disclosure must precede the bits leaving.
             disclose(&ledger, &id, &how)?;
             if let Some(p) = &output {
                 write_seed(p, &seed.bits)?;
-                println!(
-                    "recorded seed {id} as disclosed and wrote it to {} (owner-only)",
-                    p.display()
-                );
+            }
+            if json {
+                common::print_json(
+                    &serde_json::json!({"seed": id, "disclosed": true, "written_to": output}),
+                )?;
             } else {
-                println!("recorded seed {id} as disclosed");
+                match &output {
+                    Some(p) => println!(
+                        "recorded seed {id} as disclosed and wrote it to {} (owner-only)",
+                        p.display()
+                    ),
+                    None => println!("recorded seed {id} as disclosed"),
+                }
+                eprintln!("caution: from now on seed {id} may only be used on raw data committed to the ledger before this disclosure (hashing spec 4.1); the output of any later use is only as good as that timing");
             }
         }
-        Cmd::Budget { id, budget } => {
+        Cmd::Budget { id, budget, json } => {
             ledger.append(|_| {
                 Ok::<_, sluice::ledger::Error>((
                     vec![Body::BudgetSet {
@@ -352,13 +374,21 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
                     (),
                 ))
             })?;
-            println!("budget of seed {id} lowered to {budget:e}");
+            if json {
+                common::print_json(&serde_json::json!({"seed": id, "budget": budget}))?;
+            } else {
+                println!("budget of seed {id} lowered to {budget:e}");
+            }
         }
-        Cmd::Retire { id } => {
+        Cmd::Retire { id, json } => {
             ledger.append(|_| {
                 Ok::<_, sluice::ledger::Error>((vec![Body::SeedRetired { seed: id.clone() }], ()))
             })?;
-            println!("retired seed {id}");
+            if json {
+                common::print_json(&serde_json::json!({"seed": id, "retired": true}))?;
+            } else {
+                println!("retired seed {id}");
+            }
         }
     }
     Ok(ExitCode::SUCCESS)
