@@ -521,3 +521,93 @@ fn new_seed_run_records_the_seed_and_the_receipt_names_it() {
         blake3::hash(&bytes).to_hex().to_string()
     );
 }
+
+const PARAMS: &str = "rounds = 200000\ntest-probability = 1\nexpected-win = 0.85\n\
+    tolerance = 0.005\nsmoothing = 1e-6\nacceptance = 1e-6\n";
+
+/// Certifies a simulated run of a fictional bench (demo data) and returns
+/// the raw file and certificate names.
+fn certified_run(dir: &std::path::Path, name: &str, sim_seed: u64) -> (String, String) {
+    use sluice::certify::simulate::SimulatedDevice;
+    let mut text = Vec::new();
+    SimulatedDevice::new(0.853, 1.0, sim_seed).write_record(200_000, &mut text);
+    let rounds = dir.join(format!("{name}.rounds"));
+    std::fs::write(&rounds, &text).unwrap();
+    let params = dir.join("run.params");
+    std::fs::write(&params, PARAMS).unwrap();
+    let cert = dir.join(format!("{name}.cert.json"));
+    let raw = dir.join(format!("{name}.raw"));
+    let o = std::process::Command::new(BIN)
+        .args([
+            "certify",
+            rounds.to_str().unwrap(),
+            "--params",
+            params.to_str().unwrap(),
+            "--setup",
+            "separated",
+            "-o",
+            cert.to_str().unwrap(),
+            "--raw-out",
+            raw.to_str().unwrap(),
+        ])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    (raw.to_str().unwrap().into(), cert.to_str().unwrap().into())
+}
+
+#[test]
+fn device_independent_seed_is_fresh_per_run_unless_asserted() {
+    let dir = tempfile::tempdir().unwrap();
+    let l = dir.path().join("L");
+    let (raw1, cert1) = certified_run(dir.path(), "run1", 21);
+    let (raw2, cert2) = certified_run(dir.path(), "run2", 22);
+    ok(&l, &["ledger", "commit-raw", &raw1, "--origin", "run 1"]);
+    ok(&l, &["ledger", "commit-raw", &raw2, "--origin", "run 2"]);
+    let o1 = dir.path().join("o1.bin");
+    let v: serde_json::Value = serde_json::from_str(&ok(
+        &l,
+        &[
+            "extract",
+            &raw1,
+            "-o",
+            o1.to_str().unwrap(),
+            "--new-seed",
+            "--seed-budget",
+            "0.1",
+            "--certificate",
+            &cert1,
+            "--target-error",
+            "1e-4",
+            "--quiet",
+            "--json",
+        ],
+    ))
+    .unwrap();
+    let id = v["seed"].as_str().unwrap().to_string();
+    let o2 = dir.path().join("o2.bin");
+    let base = [
+        "extract",
+        &raw2,
+        "-o",
+        o2.to_str().unwrap(),
+        "--seed",
+        &id,
+        "--certificate",
+        &cert2,
+        "--target-error",
+        "1e-4",
+        "--quiet",
+    ];
+    let e = fail(&l, &base);
+    assert!(
+        e.contains("fresh-seed rule") && e.contains("4.1, rule 3") && e.contains("line 5"),
+        "{e}"
+    );
+    assert!(!o2.exists());
+    let mut asserted = base.to_vec();
+    asserted.push("--assert-cross-run-condition");
+    ok(&l, &asserted);
+    let log = ok(&l, &["ledger", "log", "--seed", &id]);
+    assert!(log.contains("cross-run condition asserted"), "{log}");
+}
