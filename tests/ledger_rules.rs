@@ -322,6 +322,11 @@ fn bad_input_is_refused_and_nothing_is_written() {
         assert!(e.contains("(0, 1)"), "{b}: {e}");
     }
     assert!(!l4.exists(), "nothing may be written");
+    // A refused first record (unknown seed) leaves no journal behind.
+    let l5 = dir.path().join("L5");
+    let e = fail(&l5, &["seed", "retire", "0123456789abcdef0123456789abcdef"]);
+    assert!(e.contains("not registered"), "{e}");
+    assert!(!l5.exists(), "nothing may be written");
 }
 
 #[test]

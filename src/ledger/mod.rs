@@ -124,6 +124,23 @@ pub struct Ledger {
     dir: PathBuf,
 }
 
+/// Whether `path` still names the open file `f`.
+fn same_file(f: &File, path: &Path) -> bool {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::MetadataExt;
+        match (f.metadata(), std::fs::metadata(path)) {
+            (Ok(a), Ok(b)) => a.dev() == b.dev() && a.ino() == b.ino(),
+            _ => false,
+        }
+    }
+    #[cfg(not(unix))]
+    {
+        let _ = (f, path);
+        true
+    }
+}
+
 /// Seconds since the Unix epoch.
 fn now() -> u64 {
     std::time::SystemTime::now()
@@ -193,8 +210,10 @@ impl Ledger {
         &self,
         decide: impl FnOnce(&State) -> Result<(Vec<Body>, T), E>,
     ) -> Result<(T, State), E> {
+        let dir_existed = self.dir.exists();
         std::fs::create_dir_all(&self.dir).map_err(|e| self.err(e))?;
         let path = self.journal_path();
+        let existed = path.exists();
         let mut opts = OpenOptions::new();
         opts.read(true).append(true).create(true);
         #[cfg(unix)]
@@ -202,8 +221,18 @@ impl Ledger {
             use std::os::unix::fs::OpenOptionsExt;
             opts.mode(0o600);
         }
-        let mut f = opts.open(&path).map_err(|e| self.err(e))?;
-        f.lock().map_err(|e| self.err(e))?;
+        // A refused first append removes the empty journal it created; a
+        // process that opened that file meanwhile must not write into the
+        // removed file, so it checks, under the lock, that the path still
+        // names the file it holds, and reopens if not.
+        let mut f = loop {
+            let f = opts.open(&path).map_err(|e| self.err(e))?;
+            f.lock().map_err(|e| self.err(e))?;
+            if same_file(&f, &path) {
+                break f;
+            }
+            let _ = f.unlock();
+        };
         let result = (|| {
             let mut bytes = Vec::new();
             f.seek(SeekFrom::Start(0)).map_err(|e| self.err(e))?;
@@ -257,6 +286,13 @@ impl Ledger {
             }
             Ok((out, state))
         })();
+        if result.is_err() && !existed && f.metadata().is_ok_and(|m| m.len() == 0) {
+            // A refused first append leaves nothing behind.
+            let _ = std::fs::remove_file(&path);
+            if !dir_existed {
+                let _ = std::fs::remove_dir(&self.dir);
+            }
+        }
         let _ = f.unlock();
         result
     }

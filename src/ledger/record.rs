@@ -195,28 +195,12 @@ pub fn parse_line(
     rec: &mut Record,
 ) -> Result<(), Error> {
     let at = |k: ErrorKind| Error::new(k).at(pos);
-    let v: serde_json::Value = serde_json::from_slice(line).map_err(|e| {
-        at(ErrorKind::NotJson {
-            reason: e.to_string(),
-        })
-    })?;
-    let kind = v.get("kind").and_then(|k| k.as_str()).ok_or_else(|| {
-        at(ErrorKind::BadField {
-            field: "kind",
-            reason: "missing or not a string".into(),
-        })
-    })?;
-    if !KINDS.contains(&kind) {
-        return Err(at(ErrorKind::UnknownKind {
-            kind: kind.to_string(),
-        }));
+    // Fast path: straight into the record. Only a line that fails is parsed
+    // again, generically, to say why (not JSON, unknown kind, bad field).
+    match serde_json::from_slice::<Record>(line) {
+        Ok(r) => *rec = r,
+        Err(_) => return Err(at(classify(line))),
     }
-    *rec = serde_json::from_value(v).map_err(|e| {
-        at(ErrorKind::BadField {
-            field: "record",
-            reason: e.to_string(),
-        })
-    })?;
     if rec.seq != pos.line {
         return Err(at(ErrorKind::Sequence {
             expected: pos.line,
@@ -230,6 +214,66 @@ pub fn parse_line(
         }));
     }
     Ok(())
+}
+
+/// Why a line is not a record: the slow, generic parse.
+fn classify(line: &[u8]) -> ErrorKind {
+    let v: serde_json::Value = match serde_json::from_slice(line) {
+        Ok(v) => v,
+        Err(e) => {
+            return ErrorKind::NotJson {
+                reason: e.to_string(),
+            }
+        }
+    };
+    let Some(kind) = v.get("kind").and_then(|k| k.as_str()) else {
+        return ErrorKind::BadField {
+            field: "kind",
+            reason: "missing or not a string".into(),
+        };
+    };
+    if !KINDS.contains(&kind) {
+        return ErrorKind::UnknownKind {
+            kind: kind.to_string(),
+        };
+    }
+    match serde_json::from_value::<Record>(v) {
+        Ok(_) => ErrorKind::BadField {
+            field: "record",
+            reason: "not a record of this format".into(),
+        },
+        Err(e) => ErrorKind::BadField {
+            field: "record",
+            reason: e.to_string(),
+        },
+    }
+}
+
+/// The slow twin of the parse in [`parse_line`]: generic JSON first, then
+/// the record (tests compare the two on random lines).
+#[doc(hidden)]
+pub fn parse_record_slow(line: &[u8]) -> Result<Record, ErrorKind> {
+    let v: serde_json::Value = serde_json::from_slice(line).map_err(|e| ErrorKind::NotJson {
+        reason: e.to_string(),
+    })?;
+    match v.get("kind").and_then(|k| k.as_str()) {
+        Some(k) if KINDS.contains(&k) => {}
+        Some(k) => {
+            return Err(ErrorKind::UnknownKind {
+                kind: k.to_string(),
+            })
+        }
+        None => {
+            return Err(ErrorKind::BadField {
+                field: "kind",
+                reason: "missing or not a string".into(),
+            })
+        }
+    }
+    serde_json::from_value(v).map_err(|e| ErrorKind::BadField {
+        field: "record",
+        reason: e.to_string(),
+    })
 }
 
 /// Serializes a record as one line (no newline).
@@ -290,5 +334,37 @@ mod tests {
         let bad = line.replace("journal-started", "seed-eaten");
         let e = parse_line(bad.as_bytes(), Position::default(), GENESIS, &mut got).unwrap_err();
         assert!(matches!(e.kind, ErrorKind::UnknownKind { .. }), "{e}");
+    }
+
+    proptest::proptest! {
+        /// The fast parse and its slow twin agree on mutated record lines:
+        /// both accept the same record, or both refuse.
+        #[test]
+        fn fast_parse_matches_slow_twin(pos in 0usize..400, byte in 0u8..128, which in 0usize..3) {
+            let bodies = [
+                Body::JournalStarted { format: FORMAT.into() },
+                Body::RawCommitted { digest: "ab".repeat(32), bits: 9, origin: "bench \"7\"".into() },
+                Body::UseCommitted { use_id: "u".into(), output_digest: "cd".repeat(32), receipt_digest: None },
+            ];
+            let rec = Record { seq: 3, prev: GENESIS.into(), time: 11, body: bodies[which].clone() };
+            let mut line = to_line(&rec).into_bytes();
+            let at = pos % line.len();
+            line[at] = byte;
+            let slow = parse_record_slow(&line);
+            let mut fast = rec.clone();
+            let res = parse_line(&line, Position { line: 3, offset: 0 }, GENESIS, &mut fast);
+            match (&slow, &res) {
+                (Ok(r), Ok(())) => proptest::prop_assert_eq!(r, &fast),
+                (Ok(r), Err(e)) => {
+                    // Only the chain checks may refuse a parsed record.
+                    let chain = matches!(e.kind, ErrorKind::Sequence { .. } | ErrorKind::ChainBroken { .. });
+                    proptest::prop_assert!(chain, "slow parsed {:?}, fast: {}", r, e);
+                }
+                (Err(_), Ok(())) => proptest::prop_assert!(false, "fast accepted what slow refused"),
+                (Err(a), Err(b)) => proptest::prop_assert_eq!(
+                    std::mem::discriminant(a), std::mem::discriminant(&b.kind)
+                ),
+            }
+        }
     }
 }
