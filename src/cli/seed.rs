@@ -325,6 +325,11 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
                     s.budget,
                     s.left()
                 );
+                // hashing spec 4.3: the error of everything made with the seed.
+                println!(
+                    "  all outputs made with this seed, taken together: error at most {:e} (spent + eps_seed), plus eps_cert of each certificate involved, once each",
+                    s.spent + s.eps_seed
+                );
                 if let Some(l) = s.disclosed_line {
                     println!("  disclosed at line {l}: usable only on raw data committed before that line");
                 }
