@@ -23,11 +23,14 @@
 //! run-time detection of those kernels, so the portable path can be tested.
 
 #![warn(missing_docs)]
+
 pub mod assess;
 pub mod bits;
 pub mod certify;
 pub mod extract;
 pub mod gf2;
+pub mod ledger;
 pub mod pipeline;
 pub mod plan;
+pub mod seed;
 pub mod vectors;

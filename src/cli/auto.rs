@@ -89,6 +89,20 @@ fn construction_of(e: ExtractorArg, c: &Common) -> anyhow::Result<Construction> 
 /// Sizes a run: the block layout, then the planner's choice among the
 /// constructions this command runs (or the one `--extractor` names).
 pub fn plan_run(c: &Common, sec: &SecurityArgs) -> anyhow::Result<(Layout, AutoPlan)> {
+    plan_run_seeded(c, sec, sec.seed_deficiency, 0.0)
+}
+
+/// As [`plan_run`], for a registered seed: its declared deficiency s and
+/// its eps_seed (hashing spec 4.4, 4.7) enter the plan.
+pub fn plan_run_seeded(
+    c: &Common,
+    sec: &SecurityArgs,
+    deficiency: f64,
+    eps_seed: f64,
+) -> anyhow::Result<(Layout, AutoPlan)> {
+    let mut sec = sec.clone();
+    sec.seed_deficiency = deficiency;
+    let sec = &sec;
     if c.output_bits.is_some() {
         bail!("--output-bits and the security inputs exclude each other: give one or the other");
     }
@@ -137,7 +151,8 @@ pub fn plan_run(c: &Common, sec: &SecurityArgs) -> anyhow::Result<(Layout, AutoP
         bail!("--block-bits {n} is larger than the {total} input bits: no block would be hashed");
     }
     let resolved = sec.resolve(Some(n), blocks)?;
-    let input = resolved.input;
+    let mut input = resolved.input;
+    input.budget.eps_seed = eps_seed;
     let speeds;
     let model: &dyn select::ThroughputModel = if input.objective == Objective::Fastest {
         speeds = speed_model();
@@ -255,6 +270,35 @@ impl AutoPlan {
         p
     }
 
+    /// Whether the raw data carry a device-independent certificate.
+    pub fn device_independent(&self) -> bool {
+        self.certificate
+            .as_ref()
+            .is_some_and(|(_, c, _)| c.device_independent)
+    }
+
+    /// The error charged to the seed's account for this run's L blocks:
+    /// `L (2 eps_s + 2^s eps_ext)` (hashing spec 4.1, 4.3, 4.4).
+    pub fn seed_charge(&self) -> f64 {
+        let b = &self.input.budget;
+        compose::blocks_with_one_seed(b.blocks, b.eps_s, self.planned.eps_ext, b.seed_deficiency)
+    }
+
+    /// The raw input's data digest.
+    pub fn input_digest(&self) -> &str {
+        &self.input_digest
+    }
+
+    /// Seed bits d the chosen extractor needs.
+    pub fn seed_bits(&self) -> u64 {
+        self.planned.d
+    }
+
+    /// The run's eps_total.
+    pub fn eps_total(&self) -> f64 {
+        self.planned.eps_total
+    }
+
     /// Prints the choice and the error terms on standard error.
     pub fn print_summary(&self, quiet: bool) {
         let b = &self.input.budget;
@@ -306,6 +350,7 @@ impl AutoPlan {
         report: &Report,
         c: &Common,
         output_digest: Option<String>,
+        seed: Option<(&str, &str)>,
     ) -> anyhow::Result<()> {
         let b = &self.input.budget;
         let mut notes = vec![
@@ -340,9 +385,14 @@ impl AutoPlan {
                 bit_order: format!("{:?}", c.files.bit_order).to_lowercase(),
             },
             seed: receipt::SeedRecord {
-                id: None,
+                id: seed.map(|(id, _)| id.to_string()),
                 bits: plan.seed_bits() as u64,
-                source: "explicit seed file (not registered in a ledger)".to_string(),
+                source: match seed {
+                    Some((_, src)) => {
+                        format!("registered seed ({src}), use recorded in the ledger")
+                    }
+                    None => "explicit seed file (not registered in a ledger)".to_string(),
+                },
                 deficiency: b.seed_deficiency,
             },
             certificate: self.certificate.as_ref().map(|(_, cert, digest)| {

@@ -59,7 +59,7 @@ pub struct Common {
     pub extractor: Option<ExtractorArg>,
     /// Seed file (packed bytes, MSB first, unless --seed-format says otherwise)
     #[arg(long = "seed-file", value_name = "SEED")]
-    pub seed_file: PathBuf,
+    pub seed_file: Option<PathBuf>,
     /// Format of the seed file
     #[arg(long = "seed-format", value_enum, default_value = "packed")]
     pub seed_format: FormatArg,
@@ -120,6 +120,40 @@ pub struct ExtractArgs {
     /// is then only computational once the receipt is published)
     #[arg(long = "receipt-output-digest")]
     pub receipt_output_digest: bool,
+    #[command(flatten)]
+    pub ledgered: LedgerUse,
+}
+
+/// Options of a run whose seed is accounted in the ledger.
+#[derive(clap::Args, Debug)]
+pub struct LedgerUse {
+    /// Use this registered seed (its first d bits); the use is reserved in
+    /// the ledger before any output exists
+    #[arg(long, value_name = "ID", conflicts_with_all = ["seed_file", "new_seed"])]
+    pub seed: Option<String>,
+    /// Create a registered seed of the right length and use it
+    #[arg(long = "new-seed", conflicts_with = "seed_file")]
+    pub new_seed: bool,
+    /// Budget of the seed made by --new-seed, in (0, 1) (default 1e-6)
+    #[arg(long = "seed-budget", value_name = "EPS", requires = "new_seed", value_parser = super::seed::parse_budget)]
+    pub seed_budget: Option<f64>,
+    /// Ledger folder (default: $SLUICE_LEDGER, else the user's data folder)
+    #[arg(long, value_name = "DIR")]
+    pub ledger: Option<PathBuf>,
+    /// Extract again from raw data already used, for this reason (recorded;
+    /// hashing spec 4.6)
+    #[arg(long = "repeat-reason", value_name = "TEXT")]
+    pub repeat_reason: Option<String>,
+    /// Assert that the certificate conditions on the raw outputs of the
+    /// earlier runs with this seed (hashing spec 4.1 rule 3; recorded)
+    #[arg(long = "assert-cross-run-condition")]
+    pub cross_run: bool,
+}
+
+impl LedgerUse {
+    fn active(&self) -> bool {
+        self.seed.is_some() || self.new_seed
+    }
 }
 
 /// `sluice verify`
@@ -142,10 +176,10 @@ fn parse_engine(s: &str) -> Result<Engine, String> {
 
 /// The planned extractor, the seed and the input source, after checking
 /// every size.
-struct Resolved {
-    plan: Box<dyn Extractor>,
-    seed: Bits,
-    source: Source,
+pub struct Resolved {
+    pub plan: Box<dyn Extractor>,
+    pub seed: Bits,
+    pub source: Source,
 }
 
 /// The extractor, its output size and the block layout of a run.
@@ -243,7 +277,7 @@ pub fn trevisan_plan(
     Ok(Box::new(Trevisan::with_backend(&spec, be)?))
 }
 
-fn resolve(c: &Common, l: &Layout) -> anyhow::Result<Resolved> {
+pub fn resolve(c: &Common, l: &Layout, stored: Option<&Bits>) -> anyhow::Result<Resolved> {
     if l.input_bits == Some(0) {
         bail!("--input-bits 0: the input length must be at least 1 bit");
     }
@@ -318,16 +352,33 @@ fn resolve(c: &Common, l: &Layout) -> anyhow::Result<Resolved> {
             trevisan_plan(n, m, t, c.engine)?
         }
     };
-    let seed = pipeline::read_seed(
-        &c.seed_file,
-        c.seed_format.into(),
-        plan.seed_bits(),
-        c.allow_longer_seed,
-    )?;
+    let seed = match (stored, &c.seed_file) {
+        // A registered seed: its first d bits (hashing spec 4.1: blocks use
+        // a prefix of the one seed).
+        (Some(s), _) => {
+            if s.len() < plan.seed_bits() {
+                bail!(
+                    "the registered seed holds {} bits, but this extractor needs {} seed bits; nothing was recorded or written",
+                    s.len(),
+                    plan.seed_bits()
+                );
+            }
+            s.slice(0, plan.seed_bits())
+        }
+        (None, Some(path)) => pipeline::read_seed(
+            path,
+            c.seed_format.into(),
+            plan.seed_bits(),
+            c.allow_longer_seed,
+        )?,
+        (None, None) => {
+            bail!("give a seed: --seed-file FILE, or (extract) --seed ID or --new-seed")
+        }
+    };
     Ok(Resolved { plan, seed, source })
 }
 
-fn describe(r: &Report, c: &Common, plan: &dyn Extractor) -> String {
+pub fn describe(r: &Report, c: &Common, plan: &dyn Extractor) -> String {
     let mut s = format!(
         "{}: {} block(s) of {} bits -> {} bits each ({} bits in all), seed {} bits, engine {}",
         plan.name(),
@@ -362,6 +413,9 @@ struct ExtractJson<'a> {
 
 /// Runs `sluice extract`.
 pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
+    if a.ledgered.active() {
+        return super::ledger::run_extract(a);
+    }
     let c = &a.common;
     let auto_mode = c.output_bits.is_none() && c.extractor.is_none() || a.security.any_given();
     let (layout, auto) = if auto_mode {
@@ -370,7 +424,7 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
     } else {
         (Layout::explicit(c)?, None)
     };
-    let r = resolve(c, &layout)?;
+    let r = resolve(c, &layout, None)?;
     common::print_cautions(c.quiet);
     if let Some(p) = &auto {
         p.print_summary(c.quiet);
@@ -406,7 +460,7 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
         } else {
             None
         };
-        p.write_receipt(&path, r.plan.as_ref(), &report, c, out_digest)?;
+        p.write_receipt(&path, r.plan.as_ref(), &report, c, out_digest, None)?;
         receipt_path = Some(path);
     }
     if c.json {
@@ -463,7 +517,7 @@ pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
         }
         None => Layout::explicit(c)?,
     };
-    let r = resolve(c, &layout)?;
+    let r = resolve(c, &layout, None)?;
     let claimed = c.files.output(&a.claimed);
     let pb = common::progress(layout.input_bits.unwrap_or(0), "verifying");
     let run = Run {

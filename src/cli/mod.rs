@@ -12,7 +12,9 @@ mod certify;
 mod common;
 mod demo;
 mod extract;
+mod ledger;
 mod plan;
+mod seed;
 mod vectors;
 
 use clap::{Parser, Subcommand};
@@ -47,6 +49,10 @@ enum Command {
     Vectors(vectors::VectorsArgs),
     /// Measure extraction throughput on this machine
     Bench(bench::BenchArgs),
+    /// Manage seeds: create, import, list, show, reveal, retire
+    Seed(seed::SeedArgs),
+    /// The ledger of seed use: commit raw data, verify, log, export, repair
+    Ledger(ledger::LedgerArgs),
 }
 
 /// Runs the command line and maps the outcome to an exit status.
@@ -72,6 +78,8 @@ pub fn main() -> ExitCode {
         Command::Vectors(a) => vectors::run(a),
         Command::Demo(a) => demo::run(a),
         Command::Bench(a) => bench::run(a),
+        Command::Seed(a) => seed::run(a),
+        Command::Ledger(a) => ledger::run(a),
     };
     match result {
         Ok(code) => code,

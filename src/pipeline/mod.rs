@@ -8,7 +8,10 @@
 //! or logged here.
 
 pub mod atomic;
+pub mod ledgered;
 pub mod receipt;
+#[doc(hidden)]
+pub mod test_hook;
 
 use crate::bits::io::{open_input, BitWriter, BlockReader};
 use crate::bits::{BitOrder, Bits, Error as BitsError, ErrorKind as BitsErrorKind, Format};
@@ -144,7 +147,9 @@ impl Run<'_> {
         };
         let mut sink = Sink::open(&self.output).map_err(out_err)?;
         let report = self.execute_with(progress, |y| sink.write_bits(y).map_err(out_err))?;
+        test_hook::point("during-write");
         sink.finish().map_err(out_err)?;
+        test_hook::point("after-rename");
         Ok(report)
     }
 

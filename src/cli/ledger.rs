@@ -1,0 +1,527 @@
+//! `sluice ledger`: commit raw data, verify, read and repair the journal.
+
+use super::common::{self, FormatArg, OrderArg};
+use anyhow::{bail, Context};
+use sluice::ledger::{Body, Ledger, Record};
+use sluice::pipeline::{self, BitFile};
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+/// The ledger folder: `--ledger DIR`, else `SLUICE_LEDGER`, else the user's
+/// data folder (`.../sluice/ledger`).
+pub fn ledger_dir(given: Option<&Path>) -> anyhow::Result<PathBuf> {
+    if let Some(d) = given {
+        return Ok(d.to_path_buf());
+    }
+    if let Some(d) = std::env::var_os("SLUICE_LEDGER").filter(|d| !d.is_empty()) {
+        return Ok(PathBuf::from(d));
+    }
+    match dirs::data_dir() {
+        Some(d) => Ok(d.join("sluice").join("ledger")),
+        None => bail!("no ledger folder: give --ledger DIR or set SLUICE_LEDGER"),
+    }
+}
+
+/// The `--ledger` option.
+#[derive(clap::Args, Debug, Clone)]
+pub struct LedgerOpt {
+    /// Ledger folder (default: $SLUICE_LEDGER, else the user's data folder)
+    #[arg(long, value_name = "DIR", global = true)]
+    pub ledger: Option<PathBuf>,
+}
+
+impl LedgerOpt {
+    /// Opens (without touching) the ledger.
+    pub fn open(&self) -> anyhow::Result<Ledger> {
+        Ok(Ledger::new(ledger_dir(self.ledger.as_deref())?))
+    }
+}
+
+/// `sluice ledger`
+#[derive(clap::Args, Debug)]
+pub struct LedgerArgs {
+    #[command(subcommand)]
+    cmd: Cmd,
+    #[command(flatten)]
+    at: LedgerOpt,
+}
+
+#[derive(clap::Subcommand, Debug)]
+enum Cmd {
+    /// Record a raw file's data digest as soon as it is produced, before
+    /// any seed is chosen for it
+    CommitRaw {
+        /// The raw file
+        file: PathBuf,
+        /// Where the data came from (free text, recorded)
+        #[arg(long)]
+        origin: String,
+        /// File format
+        #[arg(long, value_enum, default_value = "packed")]
+        format: FormatArg,
+        /// Bit order inside bytes
+        #[arg(long = "bit-order", value_enum, default_value = "msb")]
+        bit_order: OrderArg,
+        /// Print JSON
+        #[arg(long)]
+        json: bool,
+    },
+    /// Check the chain, the record kinds and every rule; exit 0 only when
+    /// all hold
+    Verify {
+        /// Also require this head digest (kept elsewhere)
+        #[arg(long, value_name = "HEX")]
+        head: Option<String>,
+        /// Print JSON
+        #[arg(long)]
+        json: bool,
+    },
+    /// List the records
+    Log {
+        /// Only records about this seed (and its uses)
+        #[arg(long, value_name = "ID")]
+        seed: Option<String>,
+        /// Print JSON
+        #[arg(long)]
+        json: bool,
+    },
+    /// Print every record and the derived state as one JSON document
+    Export {
+        /// Print JSON (the only form)
+        #[arg(long)]
+        json: bool,
+    },
+    /// Cut off a torn last line (only that), after saving a copy
+    Repair {
+        /// Print JSON
+        #[arg(long)]
+        json: bool,
+    },
+}
+
+#[derive(serde::Serialize)]
+struct VerifyJson {
+    ok: bool,
+    records: u64,
+    head: String,
+    problem: Option<String>,
+    first_bad_line: Option<u64>,
+    unresolved_uses: Vec<sluice::ledger::UseState>,
+    seeds: Vec<sluice::ledger::SeedState>,
+}
+
+/// Runs `sluice ledger`.
+pub fn run(a: LedgerArgs) -> anyhow::Result<ExitCode> {
+    let ledger = a.at.open()?;
+    match a.cmd {
+        Cmd::CommitRaw {
+            file,
+            origin,
+            format,
+            bit_order,
+            json,
+        } => {
+            let f = BitFile {
+                path: file.clone(),
+                format: format.into(),
+                order: bit_order.into(),
+            };
+            if f.is_std() {
+                bail!("commit-raw needs a file, not standard input");
+            }
+            let bits = pipeline::count_bits(&f)?;
+            if bits == 0 {
+                bail!(
+                    "{}: the file holds no bits; nothing was recorded",
+                    file.display()
+                );
+            }
+            let digest = pipeline::digest_prefix(&f, bits)?;
+            let d = digest.clone();
+            let (line, _) = ledger.append(|st| {
+                Ok::<_, sluice::ledger::Error>((
+                    vec![Body::RawCommitted {
+                        digest: d,
+                        bits,
+                        origin,
+                    }],
+                    st.lines + 1 + u64::from(st.lines == 0),
+                ))
+            })?;
+            if json {
+                common::print_json(&serde_json::json!({
+                    "file": file, "bits": bits, "line": line,
+                }))?;
+            } else {
+                println!(
+                    "committed {} ({bits} bits) at line {line} of {} (its digest stays in the private ledger)",
+                    file.display(),
+                    ledger.journal_path().display()
+                );
+            }
+            Ok(ExitCode::SUCCESS)
+        }
+        Cmd::Verify { head, json } => {
+            if !ledger.exists() {
+                bail!(
+                    "{}: no journal here (nothing has been recorded in this ledger)",
+                    ledger.journal_path().display()
+                );
+            }
+            let r = ledger.read()?;
+            let mut problem = r.problem.as_ref().map(|p| p.to_string());
+            if problem.is_none() {
+                if let Some(h) = &head {
+                    if h != &r.state.head {
+                        problem = Some(format!(
+                            "head digest is {}, not the {h} kept elsewhere: the journal was rewritten or lost records",
+                            r.state.head
+                        ));
+                    }
+                }
+            }
+            let v = VerifyJson {
+                ok: problem.is_none(),
+                records: r.state.lines,
+                head: r.state.head.clone(),
+                first_bad_line: r.problem.as_ref().and_then(|p| p.line()),
+                problem,
+                unresolved_uses: r.state.unresolved().cloned().collect(),
+                seeds: r.state.seeds.values().cloned().collect(),
+            };
+            if json {
+                common::print_json(&v)?;
+            } else {
+                match &v.problem {
+                    None => println!(
+                        "ok: {} records, chain intact, every rule holds; head {}",
+                        v.records, v.head
+                    ),
+                    Some(p) => println!("FAILED: {p}"),
+                }
+                for u in &v.unresolved_uses {
+                    println!(
+                        "flag: use {} of seed {} reserved at line {} never committed (stays charged: {:e})",
+                        u.use_id, u.seed, u.reserved_line, u.error
+                    );
+                }
+            }
+            Ok(if v.ok {
+                ExitCode::SUCCESS
+            } else {
+                ExitCode::from(1)
+            })
+        }
+        Cmd::Log { seed, json } => {
+            let r = ledger.read()?;
+            if let Some(p) = r.problem {
+                bail!("{p}");
+            }
+            let keep = |rec: &Record| match &seed {
+                None => true,
+                Some(id) => record_seed(&rec.body, &r.state).is_some_and(|s| &s == id),
+            };
+            let recs: Vec<&Record> = r.records.iter().filter(|x| keep(x)).collect();
+            if json {
+                common::print_json(&recs)?;
+            } else {
+                for rec in recs {
+                    println!("{:>5} {} {}", rec.seq, rec.time, describe(&rec.body));
+                }
+            }
+            Ok(ExitCode::SUCCESS)
+        }
+        Cmd::Export { json: _ } => {
+            let r = ledger.read()?;
+            if let Some(p) = r.problem {
+                bail!("{p}");
+            }
+            common::print_json(&serde_json::json!({
+                "format": sluice::ledger::record::FORMAT,
+                "note": "private: holds raw-data and output digests; do not publish",
+                "records": r.records,
+                "state": r.state,
+            }))?;
+            Ok(ExitCode::SUCCESS)
+        }
+        Cmd::Repair { json } => {
+            let (copy, dropped) = ledger
+                .repair()
+                .with_context(|| "ledger repair".to_string())?;
+            if json {
+                common::print_json(&serde_json::json!({"dropped_bytes": dropped, "copy": copy}))?;
+            } else {
+                println!(
+                    "removed a torn last line of {dropped} bytes; the journal before repair is in {}; the repair is recorded",
+                    copy.display()
+                );
+            }
+            Ok(ExitCode::SUCCESS)
+        }
+    }
+}
+
+/// The seed a record is about (uses map to their seed).
+fn record_seed(b: &Body, st: &sluice::ledger::State) -> Option<String> {
+    match b {
+        Body::SeedCreated { seed, .. }
+        | Body::BudgetSet { seed, .. }
+        | Body::SeedDisclosed { seed, .. }
+        | Body::SeedRetired { seed }
+        | Body::UseReserved { seed, .. } => Some(seed.clone()),
+        Body::UseCommitted { use_id, .. } | Body::UseAbandoned { use_id, .. } => {
+            st.uses.get(use_id).map(|u| u.seed.clone())
+        }
+        _ => None,
+    }
+}
+
+/// One line of `ledger log` (digests are shortened; the full ones stay in
+/// the private journal).
+fn describe(b: &Body) -> String {
+    let short = |d: &str| d.chars().take(12).collect::<String>();
+    match b {
+        Body::JournalStarted { format } => format!("journal started ({format})"),
+        Body::SeedCreated {
+            seed,
+            bits,
+            source,
+            deficiency,
+            eps_seed,
+            origin,
+            budget,
+        } => format!(
+            "seed created {seed}: {bits} bits, source {source}, deficiency {deficiency}, eps_seed {eps_seed:e}, budget {budget:e}, origin {origin:?}"
+        ),
+        Body::BudgetSet { seed, budget } => format!("budget of {seed} lowered to {budget:e}"),
+        Body::RawCommitted {
+            digest,
+            bits,
+            origin,
+        } => format!("raw committed {}.. ({bits} bits), origin {origin:?}", short(digest)),
+        Body::SeedDisclosed { seed, how } => format!("seed {seed} disclosed ({how})"),
+        Body::UseReserved {
+            use_id,
+            seed,
+            construction,
+            params,
+            input_digest,
+            blocks,
+            error,
+            repeat_reason,
+            cross_run_asserted,
+            ..
+        } => {
+            let mut s = format!(
+                "use {use_id} reserved: seed {seed}, {construction} {params:?}, raw {}.., {blocks} block(s), charged {error:e}",
+                short(input_digest)
+            );
+            if let Some(r) = repeat_reason {
+                s.push_str(&format!(", repeat allowed: {r:?}"));
+            }
+            if *cross_run_asserted {
+                s.push_str(", cross-run condition asserted");
+            }
+            s
+        }
+        Body::UseCommitted { use_id, .. } => format!("use {use_id} committed"),
+        Body::UseAbandoned { use_id, reason } => {
+            format!("use {use_id} abandoned (still charged): {reason}")
+        }
+        Body::SeedRetired { seed } => format!("seed {seed} retired"),
+        Body::Repair {
+            dropped_bytes,
+            copy,
+        } => format!("repair: dropped a torn tail of {dropped_bytes} bytes (copy {copy})"),
+    }
+}
+
+#[derive(serde::Serialize)]
+struct LedgeredJson<'a> {
+    extractor: &'static str,
+    output: &'a Path,
+    receipt: &'a Path,
+    seed: &'a str,
+    new_seed: bool,
+    #[serde(rename = "use")]
+    use_id: &'a str,
+    charged: f64,
+    eps_total: f64,
+    seed_uses: u64,
+    seed_spent: f64,
+    seed_left: f64,
+    #[serde(flatten)]
+    report: &'a pipeline::Report,
+}
+
+/// `sluice extract --seed ID | --new-seed`: an automatic run whose use is
+/// reserved in the ledger before any output exists and committed after the
+/// output is durably renamed (the order is kept by
+/// `sluice::pipeline::ledgered`).
+pub fn run_extract(a: super::extract::ExtractArgs) -> anyhow::Result<ExitCode> {
+    use sluice::seed::{Origin, Store};
+    let c = &a.common;
+    let lu = &a.ledgered;
+    if !a.security.any_given() {
+        bail!(
+            "--seed and --new-seed charge the use's error to the seed: give the security inputs \
+             (--min-entropy, --min-entropy-rate or --certificate, and --target-error) so the planner computes it"
+        );
+    }
+    if a.output.as_os_str() == "-" {
+        bail!("a run recorded in the ledger writes a file (its digest is recorded): give -o FILE");
+    }
+    let ledger = Ledger::new(ledger_dir(lu.ledger.as_deref())?);
+    let store = Store::new(ledger.clone());
+    // A journal that does not verify stops everything before any work.
+    let replay = ledger.read()?;
+    if let Some(p) = replay.problem {
+        bail!("{p}");
+    }
+    let (deficiency, eps_seed, stored, source) = match &lu.seed {
+        Some(id) => {
+            let s = replay.state.seed(id)?;
+            if let Some(l) = s.retired_line {
+                bail!("seed {id} was retired (line {l}) and may not be used");
+            }
+            (
+                s.deficiency,
+                s.eps_seed,
+                Some(store.load(id)?.bits),
+                s.source.clone(),
+            )
+        }
+        None => (0.0, 0.0, None, "os".to_string()),
+    };
+    let (layout, plan) = super::auto::plan_run_seeded(c, &a.security, deficiency, eps_seed)?;
+    let seed_bits = match stored {
+        Some(b) => b,
+        None => Store::os_bits(usize::try_from(plan.seed_bits())?)?,
+    };
+    let r = super::extract::resolve(c, &layout, Some(&seed_bits))?;
+    common::print_cautions(c.quiet);
+    plan.print_summary(c.quiet);
+    let (seed_id, extra) = match &lu.seed {
+        Some(id) => (id.clone(), vec![]),
+        None => {
+            let budget = lu.seed_budget.unwrap_or(sluice::seed::DEFAULT_BUDGET);
+            let (id, body) = store.prepare(&seed_bits, Origin::Os, budget)?;
+            (id, vec![body])
+        }
+    };
+    let n = r.plan.input_bits() as u64;
+    let spec = sluice::pipeline::ledgered::UseSpec {
+        seed: seed_id.clone(),
+        construction: r.plan.name().to_string(),
+        params: [
+            ("n".to_string(), n),
+            ("m".to_string(), r.plan.output_bits() as u64),
+            ("d".to_string(), r.plan.seed_bits() as u64),
+        ]
+        .into_iter()
+        .collect(),
+        input_digest: plan.input_digest().to_string(),
+        blocks: layout.input_bits.unwrap_or(n) / n,
+        seed_bits: r.plan.seed_bits() as u64,
+        error: plan.seed_charge(),
+        device_independent: plan.device_independent(),
+        cross_run_asserted: lu.cross_run,
+        repeat_reason: lu.repeat_reason.clone(),
+    };
+    let receipt_path = match &a.receipt {
+        Some(p) => p.clone(),
+        None => {
+            let mut s = a.output.clone().into_os_string();
+            s.push(".receipt.json");
+            PathBuf::from(s)
+        }
+    };
+    let output = c.files.output(&a.output);
+    let pb = common::progress(layout.input_bits.unwrap_or(0), "extracting");
+    let run = pipeline::Run {
+        input: r.source,
+        input_bits: layout.input_bits,
+        extractor: r.plan.as_ref(),
+        seed: &r.seed,
+        output: output.clone(),
+    };
+    let after = |report: &pipeline::Report| -> Result<(String, Option<String>), String> {
+        let out_digest =
+            pipeline::digest_prefix(&output, report.output_bits).map_err(|e| e.to_string())?;
+        let in_receipt = a.receipt_output_digest.then(|| out_digest.clone());
+        plan.write_receipt(
+            &receipt_path,
+            r.plan.as_ref(),
+            report,
+            c,
+            in_receipt,
+            Some((&seed_id, &source)),
+        )
+        .map_err(|e| format!("{e:#}"))?;
+        let bytes =
+            std::fs::read(&receipt_path).map_err(|e| format!("{}: {e}", receipt_path.display()))?;
+        Ok((out_digest, Some(blake3::hash(&bytes).to_hex().to_string())))
+    };
+    let res = sluice::pipeline::ledgered::execute(
+        &ledger,
+        &spec,
+        extra,
+        &run,
+        |d| pb.set_position(d),
+        after,
+    );
+    pb.finish_and_clear();
+    let out = match res {
+        Ok(o) => o,
+        Err(e) => {
+            if lu.new_seed && matches!(e, sluice::pipeline::ledgered::Error::Ledger(_)) {
+                store.discard(&seed_id);
+            }
+            return Err(e.into());
+        }
+    };
+    let s = &out.seed_state;
+    if c.json {
+        common::print_json(&LedgeredJson {
+            extractor: r.plan.name(),
+            output: &a.output,
+            receipt: &receipt_path,
+            seed: &seed_id,
+            new_seed: lu.new_seed,
+            use_id: &out.use_id,
+            charged: spec.error,
+            eps_total: plan.eps_total(),
+            seed_uses: s.uses,
+            seed_spent: s.spent,
+            seed_left: s.left(),
+            report: &out.report,
+        })?;
+    } else {
+        eprintln!(
+            "{}",
+            super::extract::describe(&out.report, c, r.plan.as_ref())
+        );
+        eprintln!("wrote {} (owner-only permissions)", a.output.display());
+        eprintln!(
+            "wrote {} (private: it holds a digest of the raw input)",
+            receipt_path.display()
+        );
+        eprintln!(
+            "seed {seed_id}: this use charged {:e}; {} use(s), spent {:e} of {:e}, left {:e}",
+            spec.error,
+            s.uses,
+            s.spent,
+            s.budget,
+            s.left()
+        );
+        if let Some(r) = &spec.repeat_reason {
+            eprintln!(
+                "override: extracting again from raw data already used, reason recorded: {r:?}"
+            );
+        }
+        if spec.cross_run_asserted {
+            eprintln!("asserted: the certificate conditions on the earlier runs' raw outputs (hashing spec 4.1 rule 3)");
+        }
+    }
+    Ok(ExitCode::SUCCESS)
+}
