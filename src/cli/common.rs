@@ -136,18 +136,24 @@ impl FileFormatArgs {
     }
 }
 
-/// The cautions printed once by commands whose output protects something.
-pub const CAUTIONS: &str = "\
-caution: the output is only as good as the min-entropy claim for the input and the
-  assumptions of the certification behind it; sluice cannot check either.
-caution: a seed must be independent of the source and of any adversary, and must be used
-  only on raw data fixed before the seed was disclosed; each reuse adds its error.
-caution: whether the error figure suffices for keys, lotteries or audits is for the
-  standards and evaluators that apply to your application to decide.";
+/// The cautions printed once by commands whose output protects something
+/// (`plan`, `extract`, `demo`), in plain words.
+pub const CAUTIONS: [&str; 4] = [
+    "The output is only as good as the min-entropy claim and the assumptions of the \
+     certification behind it; sluice cannot check either.",
+    "Seeds must be independent of the source and of any adversary, and must not be \
+     disclosed before the raw data they are used on exist.",
+    "Reusing a seed adds its error each time: every block hashed with it counts in the total.",
+    "Whether the error figure suffices for keys, lotteries or audits is for the standards and \
+     evaluators that apply to your application to decide.",
+];
 
 /// Prints [`CAUTIONS`] on standard error unless `quiet`.
 pub fn print_cautions(quiet: bool) {
     if !quiet {
-        let _ = writeln!(std::io::stderr(), "{CAUTIONS}");
+        let mut err = std::io::stderr().lock();
+        for c in CAUTIONS {
+            let _ = writeln!(err, "caution: {c}");
+        }
     }
 }

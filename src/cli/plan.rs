@@ -201,17 +201,6 @@ pub enum ObjectiveArg {
     Fastest,
 }
 
-/// The cautions printed once unless `--quiet`.
-const CAUTIONS: [&str; 4] = [
-    "The output is only as good as the min-entropy claim and the assumptions of the \
-     certification behind it.",
-    "Seeds must be independent of the source and of any adversary, and must not be \
-     disclosed before the raw data they are used on exist.",
-    "Reusing a seed adds its error each time: every block hashed with it counts in the total.",
-    "Whether the error figure suffices is for the standards and evaluators that apply to \
-     your application to decide.",
-];
-
 /// Maps a planning error's field to the option that set it.
 fn option_for(field: &str) -> &'static str {
     match field {
@@ -267,7 +256,7 @@ fn print_cautions() -> anyhow::Result<()> {
     use std::io::Write;
     let mut err = std::io::stderr().lock();
     writeln!(err)?;
-    for c in CAUTIONS {
+    for c in common::CAUTIONS {
         writeln!(err, "note: {c}")?;
     }
     Ok(())
@@ -425,7 +414,7 @@ fn report<'a>(
         assumed_conditions: select::assumed_conditions(input),
         speed_calibration: speeds,
         cautions: if cautions {
-            CAUTIONS.to_vec()
+            common::CAUTIONS.to_vec()
         } else {
             Vec::new()
         },
