@@ -90,7 +90,7 @@ pub struct Common {
     pub block_bits: Option<usize>,
     #[command(flatten)]
     pub files: FileFormatArgs,
-    /// Product engine: auto, portable, pclmul, vpclmul or fft (all give the same bits)
+    /// Product engine: auto, portable, pclmul, vpclmul256, vpclmul or fft (all give the same bits)
     #[arg(long, default_value = "auto", value_parser = parse_engine)]
     pub engine: Engine,
     /// Print a JSON report on standard output (or standard error when the
@@ -170,8 +170,9 @@ pub struct VerifyArgs {
 }
 
 fn parse_engine(s: &str) -> Result<Engine, String> {
-    Engine::from_name(s)
-        .ok_or_else(|| format!("unknown engine {s:?}: use auto, portable, pclmul, vpclmul or fft"))
+    Engine::from_name(s).ok_or_else(|| {
+        format!("unknown engine {s:?}: use auto, portable, pclmul, vpclmul256, vpclmul or fft")
+    })
 }
 
 /// The planned extractor, the seed and the input source, after checking

@@ -49,8 +49,8 @@ impl Engine {
         v
     }
 
-    /// Name as used on the command line (`portable`, `pclmul`, `vpclmul`,
-    /// `fft`).
+    /// Name as used on the command line (`portable`, `pclmul`,
+    /// `vpclmul256`, `vpclmul`, `fft`).
     pub fn name(self) -> &'static str {
         match self {
             Engine::Clmul(b) => b.name(),
@@ -65,6 +65,7 @@ impl Engine {
             "portable" => Engine::Clmul(Backend::Portable),
             "pclmul" => Engine::Clmul(Backend::Pclmul),
             "vpclmul" => Engine::Clmul(Backend::Vpclmul),
+            "vpclmul256" => Engine::Clmul(Backend::Vpclmul256),
             "fft" => Engine::Fft,
             _ => return None,
         })

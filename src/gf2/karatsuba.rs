@@ -39,8 +39,8 @@ pub struct MiddleKernel {
 
 impl MiddleKernel {
     /// A kernel for `backend` with base-case size `base` words (the
-    /// recursion runs on sizes `base * 2^k`). For [`Backend::Vpclmul`] the
-    /// base must be a multiple of 8 in 8..=64.
+    /// recursion runs on sizes `base * 2^k`); `base` must satisfy
+    /// [`supports_base`].
     ///
     /// # Panics
     /// If the backend is not supported here or `base` does not suit it.
@@ -50,13 +50,11 @@ impl MiddleKernel {
             "backend {} not supported on this CPU",
             backend.name()
         );
-        assert!(base >= 1, "base size must be positive");
-        if backend == Backend::Vpclmul {
-            assert!(
-                clmul::vpclmul::supports_base(base),
-                "vpclmul base {base} is not a multiple of 8 in 8..=64"
-            );
-        }
+        assert!(
+            supports_base(backend, base),
+            "{} base case cannot take {base} words",
+            backend.name()
+        );
         MiddleKernel { backend, base }
     }
 
@@ -153,6 +151,16 @@ impl MiddleKernel {
                     unsafe { clmul::pclmul::mp_base(a, x, out) }
                 }
             }
+            #[cfg(target_arch = "x86_64")]
+            Backend::Vpclmul256 => {
+                if clmul::vpclmul256::supports_base(x.len()) {
+                    // SAFETY: MiddleKernel::new checked that the backend is supported.
+                    unsafe { clmul::vpclmul256::mp_base(a, x, out) }
+                } else {
+                    // SAFETY: Vpclmul256 support implies Pclmul support (Backend::is_supported).
+                    unsafe { clmul::pclmul::mp_base(a, x, out) }
+                }
+            }
             #[cfg(not(target_arch = "x86_64"))]
             _ => unreachable!(),
         }
@@ -166,6 +174,12 @@ impl MiddleKernel {
             unsafe { clmul::vpclmul::xor3(dst, a, b) };
             return;
         }
+        #[cfg(target_arch = "x86_64")]
+        if self.backend == Backend::Vpclmul256 {
+            // SAFETY: Vpclmul256 support includes avx2 (Backend::is_supported).
+            unsafe { clmul::vpclmul256::xor3(dst, a, b) };
+            return;
+        }
         xor3(dst, a, b)
     }
 
@@ -177,9 +191,30 @@ impl MiddleKernel {
             unsafe { clmul::vpclmul::xor_into(dst, src) };
             return;
         }
+        #[cfg(target_arch = "x86_64")]
+        if self.backend == Backend::Vpclmul256 {
+            // SAFETY: Vpclmul256 support includes avx2 (Backend::is_supported).
+            unsafe { clmul::vpclmul256::xor_into(dst, src) };
+            return;
+        }
         for (d, s) in dst.iter_mut().zip(src) {
             *d ^= s;
         }
+    }
+}
+
+/// Whether [`MiddleKernel`] can use `base` words as its base-case size with
+/// `backend`: the vector kernels take row counts in groups of their register
+/// width (8 words for AVX-512, 4 for AVX2), up to 64 words.
+pub fn supports_base(backend: Backend, base: usize) -> bool {
+    match backend {
+        Backend::Portable | Backend::Pclmul => base >= 1,
+        #[cfg(target_arch = "x86_64")]
+        Backend::Vpclmul => clmul::vpclmul::supports_base(base),
+        #[cfg(target_arch = "x86_64")]
+        Backend::Vpclmul256 => clmul::vpclmul256::supports_base(base),
+        #[cfg(not(target_arch = "x86_64"))]
+        _ => false,
     }
 }
 
@@ -321,8 +356,13 @@ mod tests {
                 (3, 12),
                 (5, 5),
                 (7, 56),
+                (4, 4),
+                (12, 48),
+                (20, 80),
+                (60, 60),
+                (64, 128),
             ] {
-                if be == Backend::Vpclmul && !clmul::vpclmul::supports_base(base) {
+                if !supports_base(be, base) {
                     continue;
                 }
                 let k = MiddleKernel::new(be, base);

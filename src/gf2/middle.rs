@@ -19,8 +19,8 @@
 //! Nothing here allocates after planning: the prepared seed is built once and
 //! the caller passes scratch of [`ToeplitzWindow::scratch_len`] words.
 
-use super::clmul::{vpclmul, Backend};
-use super::karatsuba::MiddleKernel;
+use super::clmul::Backend;
+use super::karatsuba::{supports_base, MiddleKernel};
 use crate::bits::words_for;
 
 /// A plan for the window `[n-1, n+m-1)` of `S * X`, for fixed n, m, backend.
@@ -59,7 +59,7 @@ impl ToeplitzWindow {
     /// If `n == 0`, `m == 0` or the backend is not supported.
     pub fn new(n: usize, m: usize, backend: Backend) -> Self {
         let max_base = match backend {
-            Backend::Vpclmul => 32,
+            Backend::Vpclmul | Backend::Vpclmul256 => 32,
             _ => 16,
         };
         Self::with_max_base(n, m, backend, max_base)
@@ -238,13 +238,9 @@ fn tail_mask(len: usize) -> u64 {
 /// `rows x cols` word-level Toeplitz product: tiles times `3^k` base products
 /// of `base^2` word products, plus a linear term per Karatsuba level.
 fn choose_tile(rows: usize, cols: usize, backend: Backend, max_base: usize) -> (usize, usize) {
-    let bases: Vec<usize> = match backend {
-        Backend::Vpclmul => (8..=max_base.min(64))
-            .step_by(8)
-            .filter(|&b| vpclmul::supports_base(b))
-            .collect(),
-        _ => (1..=max_base.max(1)).collect(),
-    };
+    let bases: Vec<usize> = (1..=max_base.max(1))
+        .filter(|&b| supports_base(backend, b))
+        .collect();
     let mut best: Option<(f64, usize, usize)> = None;
     for &base in &bases {
         let mut size = base;
@@ -322,8 +318,8 @@ mod tests {
         for be in Backend::all_supported() {
             for &(n, m) in &sizes {
                 let m = m.min(n);
-                for max_base in [1, 8, 16, 32] {
-                    if be == Backend::Vpclmul && max_base < 8 {
+                for max_base in [1, 4, 8, 16, 32, 64] {
+                    if !(1..=max_base).any(|b| supports_base(be, b)) {
                         continue;
                     }
                     let plan = ToeplitzWindow::with_max_base(n, m, be, max_base);

@@ -9,6 +9,8 @@ pub mod pclmul;
 pub mod portable;
 #[cfg(target_arch = "x86_64")]
 pub mod vpclmul;
+#[cfg(target_arch = "x86_64")]
+pub mod vpclmul256;
 
 /// A carry-less multiplication kernel.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
@@ -19,14 +21,20 @@ pub enum Backend {
     Pclmul,
     /// x86-64 AVX-512 VPCLMULQDQ, four 64 x 64 products per instruction.
     Vpclmul,
+    /// x86-64 AVX2 VPCLMULQDQ on 256-bit registers, two 64 x 64 products per
+    /// instruction (CPUs with VPCLMULQDQ but no AVX-512).
+    Vpclmul256,
 }
 
 impl Backend {
     /// The fastest backend this CPU supports (honouring the test-only
-    /// features `no_vpclmul` and `no_pclmul`, which disable detection).
+    /// features `no_vpclmul`, which disables both VPCLMULQDQ backends, and
+    /// `no_pclmul`).
     pub fn detect() -> Backend {
         if Backend::Vpclmul.is_supported() {
             Backend::Vpclmul
+        } else if Backend::Vpclmul256.is_supported() {
+            Backend::Vpclmul256
         } else if Backend::Pclmul.is_supported() {
             Backend::Pclmul
         } else {
@@ -36,10 +44,15 @@ impl Backend {
 
     /// Every backend this CPU supports, portable first.
     pub fn all_supported() -> Vec<Backend> {
-        [Backend::Portable, Backend::Pclmul, Backend::Vpclmul]
-            .into_iter()
-            .filter(|b| b.is_supported())
-            .collect()
+        [
+            Backend::Portable,
+            Backend::Pclmul,
+            Backend::Vpclmul256,
+            Backend::Vpclmul,
+        ]
+        .into_iter()
+        .filter(|b| b.is_supported())
+        .collect()
     }
 
     /// Whether this CPU can run the backend.
@@ -60,6 +73,13 @@ impl Backend {
                     && std::is_x86_feature_detected!("vpclmulqdq")
                     && std::is_x86_feature_detected!("avx512f")
             }
+            #[cfg(target_arch = "x86_64")]
+            Backend::Vpclmul256 => {
+                !cfg!(feature = "no_vpclmul")
+                    && Backend::Pclmul.is_supported()
+                    && std::is_x86_feature_detected!("vpclmulqdq")
+                    && std::is_x86_feature_detected!("avx2")
+            }
             #[cfg(not(target_arch = "x86_64"))]
             _ => false,
         }
@@ -71,6 +91,7 @@ impl Backend {
             Backend::Portable => "portable",
             Backend::Pclmul => "pclmul",
             Backend::Vpclmul => "vpclmul",
+            Backend::Vpclmul256 => "vpclmul256",
         }
     }
 
@@ -83,7 +104,7 @@ impl Backend {
         match self {
             Backend::Portable => portable::clmul64(a, b),
             #[cfg(target_arch = "x86_64")]
-            Backend::Pclmul | Backend::Vpclmul => {
+            Backend::Pclmul | Backend::Vpclmul | Backend::Vpclmul256 => {
                 assert!(self.is_supported(), "backend {} not supported", self.name());
                 // SAFETY: is_supported() checked pclmulqdq and sse2 just above.
                 unsafe { pclmul::clmul64(a, b) }
