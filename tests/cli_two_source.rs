@@ -298,3 +298,88 @@ fn refusals_say_what_and_where() {
     assert!(err(&o).contains("no seed and no ledger"), "{}", err(&o));
     assert!(!d.path().join("out.bin").exists());
 }
+
+fn plan(args: &[&str], cache: &Path) -> Output {
+    Command::new(BIN)
+        .arg("plan")
+        .args(args)
+        .env("XDG_CACHE_HOME", cache)
+        .env("HOME", cache)
+        .output()
+        .unwrap()
+}
+
+// spec/hashing-and-composition.md 6.5, Table 6 [computed there, params.py]:
+// n = 1019, k1 = k2 = 0.9 n, eps = 1e-6: classical m = 776 at 8.899e-7,
+// Markov (unverified) m = 131 at 7.444e-7.
+#[test]
+fn plan_two_source_table_6() {
+    let d = tempfile::tempdir().unwrap();
+    let args = [
+        "--two-source",
+        "--input-bits",
+        "1019",
+        "--min-entropy-rate",
+        "0.9",
+        "--second-min-entropy-rate",
+        "0.9",
+        "--target-error",
+        "1e-6",
+    ];
+    let o = plan(&args, d.path());
+    assert!(o.status.success(), "{}", err(&o));
+    let out = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        out.contains("classical side information only: m = 776 bits, extractor error 8.899e-7"),
+        "{out}"
+    );
+    assert!(
+        !out.contains("Markov"),
+        "Markov mode is off by default: {out}"
+    );
+    assert!(err(&o)
+        .contains("note: classical side information only; the two sources must be independent"));
+
+    let mut m = args.to_vec();
+    m.push("--markov-unverified");
+    let o = plan(&m, d.path());
+    let out = String::from_utf8_lossy(&o.stdout);
+    assert!(out.contains("UNVERIFIED constants"), "{out}");
+    assert!(
+        out.contains("m = 131 bits, extractor error 7.444e-7"),
+        "{out}"
+    );
+
+    // Raw strings longer than n: 1024 bits keep n = 1019 and lower each
+    // bound by 5 (spec 6.1, 1.5).
+    let o = plan(
+        &[
+            "--two-source",
+            "--input-bits",
+            "1024",
+            "--min-entropy",
+            "922.1",
+            "--second-min-entropy",
+            "922.1",
+            "--target-error",
+            "1e-6",
+            "--quiet",
+        ],
+        d.path(),
+    );
+    let out = String::from_utf8_lossy(&o.stdout);
+    assert!(out.contains("n = 1019 bits kept"), "{out}");
+    assert!(out.contains("m = 776 bits"), "{out}");
+
+    // Markov mode with smoothing needs the explicit assumption (spec 6.4
+    // item 3).
+    let mut s = m.clone();
+    s.extend_from_slice(&["--smoothing", "1e-9"]);
+    let o = plan(&s, d.path());
+    assert_eq!(o.status.code(), Some(2));
+    assert!(err(&o).contains("--accept-markov-smoothing"), "{}", err(&o));
+    s.push("--accept-markov-smoothing");
+    let o = plan(&s, d.path());
+    assert!(o.status.success(), "{}", err(&o));
+    assert!(String::from_utf8_lossy(&o.stdout).contains("accepted by you"));
+}
