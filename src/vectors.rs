@@ -5,7 +5,7 @@
 //!
 //! ```text
 //! case <name>
-//! extractor <toeplitz | modified-toeplitz | ...>
+//! extractor <toeplitz | modified-toeplitz | trevisan | two-source>
 //! input-bits <n>
 //! output-bits <m>
 //! param <key> <value>           (extractor-specific integers, any number)
@@ -25,13 +25,17 @@
 //! digests (BLAKE3 of the 8-byte little-endian bit length, then the packed
 //! bytes; `spec/conventions.md`).
 //!
+//! For `two-source` the `seed` line holds the **second raw source** Y (n
+//! bits), not a seed: the extractor is seedless and takes Y in the seed slot
+//! of [`Extractor`].
+//!
 //! Parsing is pure ([`parse`]); [`check_case`] recomputes one case with the
 //! library's extractors.
 
 use crate::bits::digest::data_digest;
 use crate::bits::{BitOrder, Bits};
 use crate::extract::trevisan::{DesignKind, OneBit, Trevisan, TrevisanSpec};
-use crate::extract::{Engine, Extractor, ModifiedToeplitz, Toeplitz};
+use crate::extract::{Engine, Extractor, ModifiedToeplitz, Toeplitz, TwoSource};
 use sha3::digest::{ExtendableOutput, Update, XofReader};
 use std::collections::BTreeMap;
 use std::fmt;
@@ -273,6 +277,9 @@ pub fn build_extractor(case: &Case, engine: Engine) -> Result<Box<dyn Extractor>
         )),
         "modified-toeplitz" => Ok(Box::new(
             ModifiedToeplitz::with_engine(n, m, engine).map_err(|e| e.to_string())?,
+        )),
+        "two-source" => Ok(Box::new(
+            TwoSource::with_engine(n, m, engine).map_err(|e| e.to_string())?,
         )),
         "trevisan" => {
             let spec = trevisan_spec(case)?;

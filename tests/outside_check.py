@@ -1,7 +1,7 @@
 #!/usr/bin/env python3
 """Outside check of the hashing vectors with general-purpose libraries.
 
-Recomputes every Toeplitz and modified Toeplitz case of vectors/*.vec without
+Recomputes every Toeplitz, modified Toeplitz and two-source case of vectors/*.vec without
 any sluice code, from the definitions of spec/conventions.md:
 
 - Toeplitz: y_i = XOR_j s[i - j + n - 1] x[j], i.e. entries n-1 .. n+m-2 of the
@@ -12,6 +12,12 @@ any sluice code, from the definitions of spec/conventions.md:
   scipy.signal.fftconvolve (float64 FFT, rounded to integers).
 - Modified Toeplitz: y = x_head XOR T' x_tail with T' built the same way from
   the n - 1 seed bits.
+- Two-source (spec/hashing-and-composition.md 6.2): z_i = XOR_j x_j y[(i+j) mod n],
+  the `seed` line holding the second source y. Computed from the polynomial
+  form: the integer convolution of Xrev (Xrev_j = x[(-j) mod n]) with y by
+  numpy.convolve (scipy.signal.fftconvolve above 2^28 multiply-adds), folded
+  mod z^n - 1 (p_i + p_{i+n}), parity; and for n <= 2048 also directly as the
+  inner products of x with y rotated by i places (numpy.roll), parity.
 - Recipe inputs are SHAKE256 (hashlib, FIPS 202) of the label; data digests
   are BLAKE3 (the blake3 package) of the 8-byte little-endian bit length and
   the packed bytes.
@@ -96,8 +102,42 @@ def toeplitz_matrix(x, s, m):
     return (t @ x) % 2
 
 
+def two_source(x, y, m):
+    n = len(x)
+    xrev = np.roll(x[::-1], 1)  # xrev[j] = x[(-j) mod n]
+    if n * n > 1 << 28:
+        p = np.rint(scipy.signal.fftconvolve(xrev.astype(np.float64), y.astype(np.float64))).astype(np.int64)
+    else:
+        p = np.convolve(xrev, y)
+    folded = p[:n].copy()
+    folded[: n - 1] += p[n:]
+    return folded[:m] % 2
+
+
+def two_source_rotations(x, y, m):
+    return np.array([int(x @ np.roll(y, -i)) % 2 for i in range(m)], dtype=np.int64)
+
+
+def check_two_source(case):
+    n, m = int(case["input-bits"]), int(case["output-bits"])
+    x = get_bits(case, "input", n)
+    y = get_bits(case, "seed", n)
+    z = two_source(x, y, m)
+    if n <= 2048 and not np.array_equal(z, two_source_rotations(x, y, m)):
+        return "numpy convolution and rotations disagree"
+    if "output" in case:
+        want = bits_from_bytes(bytes.fromhex(case["output"]), m)
+        if not np.array_equal(z, want):
+            return f"output differs from bit {int(np.argmax(z != want))}"
+    if "output-digest" in case and data_digest(z) != case["output-digest"]:
+        return "output digest differs"
+    return ""
+
+
 def check(case, skip_large):
     fam = case["extractor"]
+    if fam == "two-source":
+        return check_two_source(case)
     if fam not in ("toeplitz", "modified-toeplitz"):
         return None
     n, m = int(case["input-bits"]), int(case["output-bits"])

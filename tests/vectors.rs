@@ -57,7 +57,7 @@ fn committed_vectors_match_the_generator() {
         .status()
         .unwrap();
     assert!(st.success());
-    for f in ["toeplitz.vec", "modified-toeplitz.vec"] {
+    for f in ["toeplitz.vec", "modified-toeplitz.vec", "two-source.vec"] {
         let a = std::fs::read(dir.path().join(f)).unwrap();
         let b = std::fs::read(vectors_dir().join(f)).unwrap();
         assert!(

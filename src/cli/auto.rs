@@ -67,6 +67,9 @@ fn construction_of(e: ExtractorArg, c: &Common) -> anyhow::Result<Construction> 
         ExtractorArg::ModifiedToeplitz => Construction::Hash {
             family: Family::ModifiedToeplitz,
         },
+        ExtractorArg::TwoSource => {
+            bail!("--extractor two-source needs --output-bits M: the planner does not size two-source runs")
+        }
         ExtractorArg::Trevisan => {
             if c.field_bits.is_some() {
                 bail!("--field-bits: with the security inputs the planner chooses the field; leave it out");

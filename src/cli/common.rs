@@ -157,3 +157,14 @@ pub fn print_cautions(quiet: bool) {
         }
     }
 }
+
+/// The caution every two-source use carries (hashing spec 6.3, 6.4 policy
+/// item 1).
+pub const TWO_SOURCE_CAUTION: &str =
+    "classical side information only; the two sources must be independent";
+
+/// The cautions of a two-source run: [`CAUTIONS`] without the two about
+/// seeds (there is none), then [`TWO_SOURCE_CAUTION`].
+pub fn two_source_cautions() -> [&'static str; 3] {
+    [CAUTIONS[0], CAUTIONS[3], TWO_SOURCE_CAUTION]
+}

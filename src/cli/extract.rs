@@ -19,6 +19,9 @@ pub enum ExtractorArg {
     ModifiedToeplitz,
     /// Trevisan-style extractor (needs --one-bit, --design, --field-bits for ph)
     Trevisan,
+    /// Seedless cyclic-shift two-source extractor (needs --second-source and
+    /// --output-bits; independent sources, classical side information only)
+    TwoSource,
 }
 
 /// One-bit extractor names.
@@ -60,6 +63,10 @@ pub struct Common {
     /// Seed file (packed bytes, MSB first, unless --seed-format says otherwise)
     #[arg(long = "seed-file", value_name = "SEED")]
     pub seed_file: Option<PathBuf>,
+    /// Two-source: the second raw source Y (same format as the input; not a
+    /// seed: it must be independent of the input)
+    #[arg(long = "second-source", value_name = "Y")]
+    pub second_source: Option<PathBuf>,
     /// Format of the seed file
     #[arg(long = "seed-format", value_enum, default_value = "packed")]
     pub seed_format: FormatArg,
@@ -343,6 +350,9 @@ pub fn resolve(c: &Common, l: &Layout, stored: Option<&Bits>) -> anyhow::Result<
             }
             Box::new(ModifiedToeplitz::with_engine(n, m, c.engine)?)
         }
+        ExtractorArg::TwoSource => {
+            bail!("--extractor two-source takes --second-source Y and --output-bits M")
+        }
         ExtractorArg::Trevisan => {
             // The function is defined for any m (spec/trevisan.md 2); the
             // planner keeps m below the min-entropy.
@@ -414,6 +424,10 @@ struct ExtractJson<'a> {
 
 /// Runs `sluice extract`.
 pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
+    if super::two_source::wanted(&a.common) {
+        return super::two_source::run_extract(&a);
+    }
+    no_second_source(&a.common)?;
     if a.ledgered.active() {
         return super::ledger::run_extract(a);
     }
@@ -499,6 +513,10 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
 
 /// Runs `sluice verify`: exit 0 on match, 1 on mismatch, 2 on bad usage.
 pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
+    if super::two_source::wanted(&a.common) {
+        return super::two_source::run_verify(&a);
+    }
+    no_second_source(&a.common)?;
     let c = &a.common;
     let layout = match &a.receipt {
         Some(path) => {
@@ -530,19 +548,28 @@ pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
     };
     let v = run.verify(&claimed, |done| pb.set_position(done))?;
     pb.finish_and_clear();
+    print_verdict(&v, c, &a.claimed)
+}
+
+/// Prints a verification verdict; exit 0 on match, 1 on mismatch.
+pub fn print_verdict(
+    v: &pipeline::Verdict,
+    c: &Common,
+    claimed: &Path,
+) -> anyhow::Result<ExitCode> {
     if c.json {
         common::print_json(&v)?;
     } else if v.matches {
         println!(
             "match: {} bits of {} agree with the recomputed output",
             v.computed_bits,
-            a.claimed.display()
+            claimed.display()
         );
     } else {
         let first = v.first_difference.unwrap_or(0);
         println!(
             "MISMATCH: {} differs from the recomputed output; first differing bit {first}, {} differing bits over the common length",
-            a.claimed.display(),
+            claimed.display(),
             v.differing_bits
         );
         if v.claimed_bits < v.computed_bits {
@@ -563,4 +590,12 @@ pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
     } else {
         ExitCode::from(1)
     })
+}
+
+/// Refuses --second-source without --extractor two-source.
+fn no_second_source(c: &Common) -> anyhow::Result<()> {
+    if c.second_source.is_some() {
+        bail!("--second-source applies to --extractor two-source only");
+    }
+    Ok(())
 }

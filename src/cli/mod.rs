@@ -15,6 +15,7 @@ mod extract;
 mod ledger;
 mod plan;
 mod seed;
+mod two_source;
 mod vectors;
 
 use clap::{Parser, Subcommand};

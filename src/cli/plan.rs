@@ -24,6 +24,8 @@ pub struct PlanArgs {
     input_bits: Option<u64>,
     #[command(flatten)]
     security: SecurityArgs,
+    #[command(flatten)]
+    two: super::two_source::PlanTwoSource,
     /// Print one JSON document instead of the table.
     #[arg(long)]
     json: bool,
@@ -233,6 +235,15 @@ fn ratio_cell(x: f64) -> String {
 }
 
 pub fn run(args: PlanArgs) -> anyhow::Result<ExitCode> {
+    if args.two.two_source {
+        return super::two_source::run_plan(
+            &args.two,
+            args.input_bits,
+            &args.security,
+            args.json,
+            args.quiet,
+        );
+    }
     let resolved = args.security.resolve(args.input_bits, 1)?;
     let input = resolved.input;
     let rate_given = resolved.rate_given;

@@ -15,9 +15,11 @@ pub mod modified_toeplitz;
 pub mod reference;
 pub mod toeplitz;
 pub mod trevisan;
+pub mod two_source;
 
 pub use modified_toeplitz::ModifiedToeplitz;
 pub use toeplitz::Toeplitz;
+pub use two_source::{TwoSource, TwoSourceError};
 
 use crate::bits::Bits;
 use crate::gf2::Backend;

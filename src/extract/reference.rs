@@ -71,3 +71,28 @@ pub fn modified_toeplitz(x: &Bits, seed: &Bits, m: usize) -> Bits {
     }
     from_bitvec(&y)
 }
+
+/// The cyclic-shift two-source extractor by its definition
+/// (`spec/hashing-and-composition.md` 6.2):
+/// `z_i = XOR_j x_j AND y_{(i + j) mod n}`, `i = 0 .. m-1`. Here `y` is the
+/// second raw source, not a seed. Any lengths `n >= 1`, `m >= 1` are
+/// computed (validity of n is the plan's business, not the definition's).
+///
+/// # Panics
+/// If `y` does not have the length of `x`, or `m == 0`.
+pub fn two_source(x: &Bits, y: &Bits, m: usize) -> Bits {
+    let n = x.len();
+    assert!(n >= 1 && m >= 1, "two-source: n and m must be at least 1");
+    assert_eq!(y.len(), n, "two-source: both sources must have n bits");
+    let xv = to_bitvec(x);
+    let yv = to_bitvec(y);
+    let mut z: BitVec<u8, Lsb0> = BitVec::repeat(false, m);
+    for i in 0..m {
+        let mut acc = false;
+        for j in 0..n {
+            acc ^= xv[j] & yv[(i + j) % n];
+        }
+        z.set(i, acc);
+    }
+    from_bitvec(&z)
+}

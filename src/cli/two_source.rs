@@ -1,0 +1,538 @@
+//! `sluice extract --extractor two-source` and `sluice verify` for it: the
+//! seedless cyclic-shift two-source extractor (hashing spec 6).
+//!
+//! There is no seed and so no ledger: the second raw source Y takes the
+//! seed's place in the extractor (see `sluice::extract::two_source`). One
+//! block: the first n bits of X and of Y, n a valid length (6.1).
+
+use super::common;
+use super::extract::{Common, ExtractArgs, ExtractorArg, VerifyArgs};
+use anyhow::{bail, Context};
+use sluice::bits::Bits;
+use sluice::extract::{Extractor, TwoSource};
+use sluice::pipeline::{Run, Source};
+use sluice::plan::two_source::largest_n;
+use std::io::Write;
+use std::path::Path;
+use std::process::ExitCode;
+
+/// Whether the command line asks for the two-source extractor.
+pub fn wanted(c: &Common) -> bool {
+    c.extractor == Some(ExtractorArg::TwoSource)
+}
+
+/// The planned extractor and both sources, cut to n bits.
+struct Resolved {
+    plan: TwoSource,
+    x: Bits,
+    y: Bits,
+}
+
+fn suggestion(limit: u64) -> String {
+    match largest_n(limit) {
+        Some(v) => format!("the largest valid n not above {limit} is {v}"),
+        None => format!("no valid n is at most {limit} (the smallest is 3)"),
+    }
+}
+
+#[cfg(unix)]
+fn same_file(a: &Path, b: &Path) -> bool {
+    use std::os::unix::fs::MetadataExt;
+    match (std::fs::metadata(a), std::fs::metadata(b)) {
+        (Ok(x), Ok(y)) => x.dev() == y.dev() && x.ino() == y.ino(),
+        _ => false,
+    }
+}
+
+#[cfg(not(unix))]
+fn same_file(a: &Path, b: &Path) -> bool {
+    match (std::fs::canonicalize(a), std::fs::canonicalize(b)) {
+        (Ok(x), Ok(y)) => x == y,
+        _ => false,
+    }
+}
+
+/// Checks the options that make no sense without a seed, reads both sources
+/// and plans.
+fn resolve(c: &Common) -> anyhow::Result<Resolved> {
+    if c.seed_file.is_some() {
+        bail!("--seed-file does not apply to --extractor two-source: it has no seed; give the second raw source with --second-source Y");
+    }
+    if c.allow_longer_seed {
+        bail!("--allow-longer-seed does not apply to --extractor two-source (it has no seed)");
+    }
+    if c.block_bits.is_some() {
+        bail!("--block-bits does not apply to --extractor two-source: it hashes one n-bit block of each source (use --input-bits N)");
+    }
+    if c.one_bit.is_some()
+        || c.design.is_some()
+        || c.field_bits.is_some()
+        || c.design_factor.is_some()
+    {
+        bail!("--one-bit, --design, --design-factor and --field-bits apply to --extractor trevisan only");
+    }
+    let Some(ypath) = c.second_source.as_deref() else {
+        bail!("--extractor two-source needs --second-source Y: the second raw source, independent of the first");
+    };
+    let Some(m) = c.output_bits else {
+        bail!("--extractor two-source needs --output-bits M: the planner does not size two-source runs (see `sluice plan --two-source` for m_max and eps)");
+    };
+    if ypath.as_os_str() == "-" {
+        bail!("--second-source -: the second source must be a file, not standard input");
+    }
+    if c.input.as_os_str() != "-" && same_file(&c.input, ypath) {
+        bail!(
+            "{} and {} are the same file: the two sources must be independent",
+            c.input.display(),
+            ypath.display()
+        );
+    }
+    if c.input_bits == Some(0) {
+        bail!("--input-bits 0: the input length must be at least 1 bit");
+    }
+    let xf = c.files.input(&c.input);
+    let read = |p: &Path| -> anyhow::Result<Bits> {
+        let b = sluice::bits::io::read_bits(p, xf.format, xf.order, None)?;
+        if b.is_empty() {
+            bail!("{}: the file holds no bits", p.display());
+        }
+        Ok(b)
+    };
+    let x = read(&c.input)?;
+    let y = read(ypath)?;
+    let have = x.len().min(y.len()) as u64;
+    let n = match c.input_bits {
+        Some(n) => {
+            for (p, b) in [(c.input.as_path(), &x), (ypath, &y)] {
+                if (b.len() as u64) < n {
+                    bail!(
+                        "{}: {n} bits asked for (--input-bits), but it ends after {} bits",
+                        p.display(),
+                        b.len()
+                    );
+                }
+            }
+            n
+        }
+        None => {
+            if x.len() != y.len() {
+                bail!(
+                    "{} holds {} bits and {} holds {}: give --input-bits N to use the first N bits of both ({})",
+                    c.input.display(),
+                    x.len(),
+                    ypath.display(),
+                    y.len(),
+                    suggestion(have)
+                );
+            }
+            have
+        }
+    };
+    if !sluice::plan::two_source::valid_n(n) {
+        let mut msg = format!(
+            "n = {n} bits is not a valid two-source length (it must be a prime with 2 as a \
+             primitive root modulo n); {}",
+            suggestion(have)
+        );
+        if n < have {
+            msg.push_str(&format!(" ({})", suggestion(n)));
+        }
+        msg.push_str(": pass it as --input-bits");
+        bail!(msg);
+    }
+    let n = usize::try_from(n).context("--input-bits too large for this machine")?;
+    if m == 0 || m >= n {
+        bail!(
+            "--output-bits {m} must be in 1..={} for two sources of {n} bits (hashing spec 6.1)",
+            n - 1
+        );
+    }
+    let (x, y) = (x.slice(0, n), y.slice(0, n));
+    if x == y {
+        bail!(
+            "the first {n} bits of {} and {} are identical: the two sources must be independent",
+            c.input.display(),
+            ypath.display()
+        );
+    }
+    let plan = TwoSource::with_engine(n, m, c.engine)?;
+    Ok(Resolved { plan, x, y })
+}
+
+/// Prints the cautions that apply to a two-source run.
+fn print_cautions(quiet: bool) {
+    if !quiet {
+        let mut err = std::io::stderr().lock();
+        for line in common::two_source_cautions() {
+            let _ = writeln!(err, "caution: {line}");
+        }
+    }
+}
+
+#[derive(serde::Serialize)]
+struct ExtractJson<'a> {
+    extractor: &'static str,
+    engine: String,
+    input_bits: usize,
+    second_source_bits: usize,
+    output_bits: u64,
+    output: &'a Path,
+    side_information: &'static str,
+}
+
+fn run_on<'a>(r: &'a Resolved, name: &Path, output: sluice::pipeline::BitFile) -> Run<'a> {
+    Run {
+        input: Source::Memory {
+            bits: r.x.clone(),
+            name: name.to_path_buf(),
+        },
+        input_bits: Some(r.x.len() as u64),
+        extractor: &r.plan,
+        seed: &r.y,
+        output,
+    }
+}
+
+/// Runs `sluice extract --extractor two-source`.
+pub fn run_extract(a: &ExtractArgs) -> anyhow::Result<ExitCode> {
+    let c = &a.common;
+    if a.ledgered.seed.is_some() || a.ledgered.new_seed {
+        bail!("--seed and --new-seed do not apply to --extractor two-source: it uses no seed and no ledger");
+    }
+    if a.security.any_given() {
+        bail!("the security inputs do not size a two-source run: give --output-bits M (see `sluice plan --two-source` for m_max and eps)");
+    }
+    if a.receipt.is_some() || a.receipt_output_digest {
+        bail!("--receipt applies to planned runs only; a two-source run writes no receipt");
+    }
+    let r = resolve(c)?;
+    print_cautions(c.quiet);
+    let run = run_on(&r, &c.input, c.files.output(&a.output));
+    let report = run.execute(|_| {})?;
+    if c.json {
+        let j = ExtractJson {
+            extractor: r.plan.name(),
+            engine: c.engine.to_string(),
+            input_bits: r.plan.input_bits(),
+            second_source_bits: r.plan.seed_bits(),
+            output_bits: report.output_bits,
+            output: &a.output,
+            side_information: sluice::plan::two_source::CLASSICAL_LABEL,
+        };
+        if a.output.as_os_str() == "-" {
+            eprintln!("{}", serde_json::to_string_pretty(&j)?);
+        } else {
+            common::print_json(&j)?;
+        }
+    } else {
+        let mut err = std::io::stderr();
+        writeln!(
+            err,
+            "two-source: {} bits of each source -> {} bits, engine {} ({})",
+            r.plan.input_bits(),
+            r.plan.output_bits(),
+            c.engine,
+            sluice::plan::two_source::CLASSICAL_LABEL
+        )?;
+        if a.output.as_os_str() != "-" {
+            writeln!(err, "wrote {} (owner-only permissions)", a.output.display())?;
+        }
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+/// Runs `sluice verify --extractor two-source`: exit 0 on match, 1 on
+/// mismatch.
+pub fn run_verify(a: &VerifyArgs) -> anyhow::Result<ExitCode> {
+    let c = &a.common;
+    if a.receipt.is_some() {
+        bail!("--receipt: two-source runs write no receipt; give --extractor two-source --second-source Y --output-bits M");
+    }
+    let r = resolve(c)?;
+    let claimed = c.files.output(&a.claimed);
+    let run = run_on(&r, &c.input, claimed.clone());
+    let v = run.verify(&claimed, |_| {})?;
+    super::extract::print_verdict(&v, c, &a.claimed)
+}
+
+/// `sluice plan --two-source`: the output length and error of the seedless
+/// two-source extractor (hashing spec 6.3; 6.4 only behind
+/// `--markov-unverified`).
+#[derive(clap::Args, Debug, Clone)]
+pub struct PlanTwoSource {
+    /// Plan the seedless two-source extractor instead of the seeded ones
+    /// (--min-entropy/--min-entropy-rate and --smoothing then describe the
+    /// first source X)
+    #[arg(long = "two-source")]
+    pub two_source: bool,
+    /// Two-source: min-entropy of the second source Y, in bits (of its raw
+    /// --input-bits bits)
+    #[arg(
+        long = "second-min-entropy",
+        value_name = "K2",
+        requires = "two_source",
+        conflicts_with = "second_min_entropy_rate"
+    )]
+    pub second_min_entropy: Option<f64>,
+    /// Two-source: min-entropy of the second source per raw bit (0 to 1)
+    #[arg(
+        long = "second-min-entropy-rate",
+        value_name = "R2",
+        requires = "two_source"
+    )]
+    pub second_min_entropy_rate: Option<f64>,
+    /// Two-source: smoothing parameter of the second source's figure
+    #[arg(
+        long = "second-smoothing",
+        value_name = "EPS_S2",
+        requires = "two_source"
+    )]
+    pub second_smoothing: Option<f64>,
+    /// Two-source: also show the quantum-proof (Markov model) figures, whose
+    /// constants are UNVERIFIED (hashing spec 6.4)
+    #[arg(long = "markov-unverified", requires = "two_source")]
+    pub markov_unverified: bool,
+    /// Two-source, Markov mode: accept the smoothing charge
+    /// 2 (eps_s,X + eps_s,Y) as an assumption (hashing spec 6.4 item 3)
+    #[arg(long = "accept-markov-smoothing", requires = "markov_unverified")]
+    pub accept_markov_smoothing: bool,
+}
+
+#[derive(serde::Serialize)]
+struct PlanMode {
+    label: &'static str,
+    output_bits: Option<u64>,
+    eps_extractor: Option<f64>,
+    eps_total: Option<f64>,
+    eps_total_rounded_up: Option<String>,
+    refused: Option<String>,
+}
+
+#[derive(serde::Serialize)]
+struct PlanJson {
+    raw_bits: u64,
+    n: u64,
+    dropped_bits: u64,
+    k1: f64,
+    k2: f64,
+    smoothing_x: f64,
+    smoothing_y: f64,
+    smoothing_charge: f64,
+    cert_error: f64,
+    target_error: f64,
+    eps_extractor_budget: f64,
+    classical: PlanMode,
+    markov_unverified: Option<PlanMode>,
+    assumed_conditions: Vec<&'static str>,
+    cautions: Vec<&'static str>,
+}
+
+fn field_option(field: &str) -> &'static str {
+    match field {
+        "k1" => "--min-entropy",
+        "k2" => "--second-min-entropy",
+        "eps" => "--target-error",
+        "eps_s_x" | "eps_s" => "--smoothing",
+        "eps_s_y" => "--second-smoothing",
+        "n" => "--input-bits",
+        _ => "plan --two-source",
+    }
+}
+
+fn plan_err(e: sluice::plan::Error) -> anyhow::Error {
+    anyhow::anyhow!("{}: {e}", field_option(e.field()))
+}
+
+/// Runs `sluice plan --two-source`.
+pub fn run_plan(
+    t: &PlanTwoSource,
+    raw: Option<u64>,
+    sec: &super::plan::SecurityArgs,
+    json: bool,
+    quiet: bool,
+) -> anyhow::Result<ExitCode> {
+    use sluice::plan::round::up4;
+    use sluice::plan::two_source as ts;
+    if sec.certificate.is_some() {
+        bail!("--certificate does not apply to --two-source: give --min-entropy (X) and --second-min-entropy (Y) of the raw strings");
+    }
+    if sec.blocks.is_some() {
+        bail!("--blocks does not apply to --two-source: it hashes one n-bit string of each source");
+    }
+    if sec.seed_deficiency != 0.0 {
+        bail!("--seed-deficiency does not apply to --two-source: it has no seed");
+    }
+    let raw = raw.ok_or_else(|| {
+        anyhow::anyhow!("--input-bits: give the length of each raw string in bits")
+    })?;
+    let Some(target) = sec.target_error else {
+        bail!("--target-error: give the total error allowed (for example 1e-9)");
+    };
+    let rate = |flag: &str, r: f64| -> anyhow::Result<f64> {
+        if !(0.0..=1.0).contains(&r) {
+            bail!("{flag}: {r} is not a rate; it must lie between 0 and 1 (bits of min-entropy per raw bit)");
+        }
+        Ok(r * raw as f64)
+    };
+    let k1_raw = match (sec.min_entropy, sec.min_entropy_rate) {
+        (Some(k), _) => k,
+        (None, Some(r)) => rate("--min-entropy-rate", r)?,
+        (None, None) => {
+            bail!("--two-source: give --min-entropy or --min-entropy-rate of the first source")
+        }
+    };
+    let k2_raw = match (t.second_min_entropy, t.second_min_entropy_rate) {
+        (Some(k), _) => k,
+        (None, Some(r)) => rate("--second-min-entropy-rate", r)?,
+        (None, None) => bail!("--two-source: give --second-min-entropy or --second-min-entropy-rate of the second source"),
+    };
+    for (flag, k) in [("--min-entropy", k1_raw), ("--second-min-entropy", k2_raw)] {
+        if !k.is_finite() || k < 0.0 || k > raw as f64 {
+            bail!("{flag} = {k}: must lie between 0 and the raw length {raw} bits");
+        }
+    }
+    // Hashing spec 6.1: keep bits 0 .. n-1, lower each bound by raw - n.
+    let n = ts::largest_n(raw).ok_or_else(|| {
+        anyhow::anyhow!(
+            "--input-bits {raw}: no valid two-source length is at most {raw} (the smallest is 3)"
+        )
+    })?;
+    let dropped = raw - n;
+    let k1 = ts::truncate_entropy(k1_raw, dropped);
+    let k2 = ts::truncate_entropy(k2_raw, dropped);
+    let (eps_sx, eps_sy) = (
+        sec.smoothing.unwrap_or(0.0),
+        t.second_smoothing.unwrap_or(0.0),
+    );
+    let eps_cert = sec.cert_error.unwrap_or(0.0);
+    let charge = ts::smoothing_charge(eps_sx, eps_sy, false, false).map_err(plan_err)?;
+    let budget = target - eps_cert - charge;
+    if budget.is_nan() || budget <= 0.0 {
+        bail!("--target-error {target:e}: nothing is left for the extractor after the certification error {eps_cert:e} and the smoothing charge 2 (eps_s,X + eps_s,Y) = {charge:e}");
+    }
+    let mode = |label: &'static str,
+                m: Result<u64, sluice::plan::Error>,
+                eps: &dyn Fn(u64) -> f64| match m {
+        Ok(m) => {
+            let e = eps(m);
+            let total = eps_cert + charge + e;
+            PlanMode {
+                label,
+                output_bits: Some(m),
+                eps_extractor: Some(e),
+                eps_total: Some(total),
+                eps_total_rounded_up: Some(up4(total)),
+                refused: None,
+            }
+        }
+        Err(e) => PlanMode {
+            label,
+            output_bits: None,
+            eps_extractor: None,
+            eps_total: None,
+            eps_total_rounded_up: None,
+            refused: Some(plan_err(e).to_string()),
+        },
+    };
+    let classical = mode(
+        ts::CLASSICAL_LABEL,
+        ts::max_m_classical(n, k1, k2, budget),
+        &|m| ts::eps_classical(n, k1, k2, m),
+    );
+    let markov = if t.markov_unverified {
+        if (eps_sx > 0.0 || eps_sy > 0.0) && !t.accept_markov_smoothing {
+            ts::smoothing_charge(eps_sx, eps_sy, true, false).map_err(|e| {
+                anyhow::anyhow!(
+                    "{}: {e}; pass --accept-markov-smoothing to accept it as an assumption",
+                    field_option(e.field())
+                )
+            })?;
+        }
+        Some(mode(
+            ts::MARKOV_LABEL,
+            ts::max_m_markov_unverified(n, k1, k2, budget, true),
+            &|m| ts::eps_markov_unverified(n, k1, k2, m, true).unwrap_or(f64::INFINITY),
+        ))
+    } else {
+        None
+    };
+    let mut assumed = vec![
+        "the two sources are independent, also given any classical side information (hashing spec 6.3)",
+        "each min-entropy figure holds for its source's raw string, given the side information",
+    ];
+    if t.markov_unverified {
+        assumed.push("Markov mode only: the sources are independent given the adversary's quantum side information (asserted by you; sluice cannot check it)");
+        if t.accept_markov_smoothing && (eps_sx > 0.0 || eps_sy > 0.0) {
+            assumed.push("Markov mode only: the smoothing charge 2 (eps_s,X + eps_s,Y) holds in the Markov model (accepted by you; hashing spec 6.4 item 3)");
+        }
+    }
+    let ok = classical.output_bits.is_some();
+    let refusal = classical.refused.clone();
+    if json {
+        common::print_json(&PlanJson {
+            raw_bits: raw,
+            n,
+            dropped_bits: dropped,
+            k1,
+            k2,
+            smoothing_x: eps_sx,
+            smoothing_y: eps_sy,
+            smoothing_charge: charge,
+            cert_error: eps_cert,
+            target_error: target,
+            eps_extractor_budget: budget,
+            classical,
+            markov_unverified: markov,
+            assumed_conditions: assumed,
+            cautions: if quiet {
+                Vec::new()
+            } else {
+                common::two_source_cautions().to_vec()
+            },
+        })?;
+    } else {
+        let mut out = std::io::stdout().lock();
+        writeln!(
+            out,
+            "two-source (cyclic shift, seedless): raw strings of {raw} bits, n = {n} bits kept \
+             (largest valid n), each min-entropy lowered by {dropped}: k1 = {k1}, k2 = {k2}"
+        )?;
+        writeln!(
+            out,
+            "smoothing charge 2 (eps_s,X + eps_s,Y) = {charge:e}, certification error {eps_cert:e}, \
+             target total error {target:e}, left for the extractor {budget:e}"
+        )?;
+        writeln!(out)?;
+        for p in std::iter::once(&classical).chain(markov.as_ref()) {
+            match (p.output_bits, &p.refused) {
+                (Some(m), _) => writeln!(
+                    out,
+                    "{}: m = {m} bits, extractor error {}, total error {}",
+                    p.label,
+                    up4(p.eps_extractor.unwrap_or(f64::NAN)),
+                    p.eps_total_rounded_up.as_deref().unwrap_or("-")
+                )?,
+                (None, Some(e)) => writeln!(out, "{}: no output: {e}", p.label)?,
+                (None, None) => {}
+            }
+        }
+        writeln!(out)?;
+        writeln!(out, "Total error = eps_cert + 2 (eps_s,X + eps_s,Y) + eps_2src, rounded up; eps_2src = 2^(-(k1 + k2 - n - m + 1)/2) (classical).")?;
+        for a in &assumed {
+            writeln!(out, "Assumed: {a}.")?;
+        }
+        drop(out);
+        if !quiet {
+            let mut err = std::io::stderr().lock();
+            writeln!(err)?;
+            for c in common::two_source_cautions() {
+                writeln!(err, "note: {c}")?;
+            }
+        }
+    }
+    match refusal {
+        None if ok => Ok(ExitCode::SUCCESS),
+        Some(e) => Err(anyhow::anyhow!("{e}")),
+        None => Err(anyhow::anyhow!("no output")),
+    }
+}
