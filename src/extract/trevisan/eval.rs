@@ -25,7 +25,7 @@
 use super::onebit::{parity_and, parse_blocks};
 use super::{OneBit, Trevisan};
 use crate::bits::Bits;
-use crate::extract::SeededExtractor;
+use crate::extract::{NoProgress, Progress, SeededExtractor};
 #[cfg(target_arch = "x86_64")]
 use crate::gf2::field::pclmul_mul_body;
 use crate::gf2::field::{dispatch_width, mul_fixed, Field, Kernel, PortableKernel, Reducer};
@@ -104,18 +104,32 @@ fn gather_ph(
     }
 }
 
-pub(crate) fn extract(tr: &Trevisan, input: &Bits, seed: &SeedView<'_>, out: &mut Bits) {
+/// Runs one block; every task reports its output bits to `progress` when
+/// it is done (one call per 64 output bits).
+pub(crate) fn extract(
+    tr: &Trevisan,
+    input: &Bits,
+    seed: &SeedView<'_>,
+    out: &mut Bits,
+    progress: &dyn Progress,
+) {
     match tr.spec.one_bit {
-        OneBit::Ph => extract_ph(tr, input, seed, out),
+        OneBit::Ph => extract_ph(tr, input, seed, out, progress),
         OneBit::Ip => match seed {
-            SeedView::Raw(s) => extract_ip(tr, input, s, out),
+            SeedView::Raw(s) => extract_ip(tr, input, s, out, progress),
             SeedView::Prepared { .. } => unreachable!("IP seeds are never prepared"),
         },
     }
     out.clear_tail();
 }
 
-fn extract_ph(tr: &Trevisan, input: &Bits, seed: &SeedView<'_>, out: &mut Bits) {
+fn extract_ph(
+    tr: &Trevisan,
+    input: &Bits,
+    seed: &SeedView<'_>,
+    out: &mut Bits,
+    progress: &dyn Progress,
+) {
     let field = tr.field.as_ref().expect("PH has a field");
     let w = field.words();
     let m = tr.spec.m;
@@ -134,6 +148,7 @@ fn extract_ph(tr: &Trevisan, input: &Bits, seed: &SeedView<'_>, out: &mut Bits) 
                         || TaskScratch::new(tr.t, w),
                         |s| *ow = ph_task(tr, field, blocks, seed, first, count, s),
                     );
+                    progress.add(count as u64);
                 });
         },
     );
@@ -370,7 +385,7 @@ fn horner_many<const W: usize, const W2: usize, K: Kernel>(
     ))
 }
 
-fn extract_ip(tr: &Trevisan, input: &Bits, seed: &Bits, out: &mut Bits) {
+fn extract_ip(tr: &Trevisan, input: &Bits, seed: &Bits, out: &mut Bits, progress: &dyn Progress) {
     let m = tr.spec.m;
     out.words_mut()
         .par_iter_mut()
@@ -382,6 +397,7 @@ fn extract_ip(tr: &Trevisan, input: &Bits, seed: &Bits, out: &mut Bits) {
                 || TaskScratch::new(tr.t, 0),
                 |s| *ow = ip_task(tr, input, seed, first as u64, count as u64, s),
             );
+            progress.add(count as u64);
         });
 }
 
@@ -478,6 +494,10 @@ impl<'a> PreparedPh<'a> {
 
 impl SeededExtractor for PreparedPh<'_> {
     fn extract(&self, input: &Bits, out: &mut Bits) {
+        self.extract_with_progress(input, out, &NoProgress);
+    }
+
+    fn extract_with_progress(&self, input: &Bits, out: &mut Bits, progress: &dyn Progress) {
         crate::extract::check_len("input", self.tr.spec.n, input.len());
         crate::extract::check_len("output", self.tr.spec.m, out.len());
         extract(
@@ -488,6 +508,7 @@ impl SeededExtractor for PreparedPh<'_> {
                 betas: &self.betas,
             },
             out,
+            progress,
         );
     }
 }

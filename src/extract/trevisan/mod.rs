@@ -30,7 +30,9 @@ pub use design::{Design, DesignKind, Group};
 pub use onebit::OneBit;
 
 use crate::bits::Bits;
-use crate::extract::{check_len, Extractor, ScratchPool, SeededExtractor, Unprepared};
+use crate::extract::{
+    check_len, Extractor, NoProgress, Progress, ScratchPool, SeededExtractor, Unprepared,
+};
 use crate::gf2::field::{Field, FieldError, MAX_FIELD_BITS};
 use crate::gf2::Backend;
 use std::fmt;
@@ -342,10 +344,21 @@ impl Extractor for Trevisan {
     }
 
     fn extract(&self, input: &Bits, seed: &Bits, out: &mut Bits) {
+        self.extract_with_progress(input, seed, out, &NoProgress);
+    }
+
+    /// Reports after every task of 64 output bits (from the rayon workers).
+    fn extract_with_progress(
+        &self,
+        input: &Bits,
+        seed: &Bits,
+        out: &mut Bits,
+        progress: &dyn Progress,
+    ) {
         check_len("input", self.spec.n, input.len());
         check_len("seed", self.seed_bits(), seed.len());
         check_len("output", self.spec.m, out.len());
-        eval::extract(self, input, &eval::SeedView::Raw(seed), out);
+        eval::extract(self, input, &eval::SeedView::Raw(seed), out, progress);
     }
 
     fn with_seed<'a>(&'a self, seed: &'a Bits) -> Box<dyn SeededExtractor + 'a> {
