@@ -324,6 +324,15 @@ impl Trevisan {
     pub fn field(&self) -> Option<&Field> {
         self.field.as_ref()
     }
+
+    /// The same plan with the 256-bit VPCLMULQDQ field path switched off or
+    /// on ([`Field::with_wide_simd`]); for tests and benches that compare
+    /// the paths.
+    #[doc(hidden)]
+    pub fn with_wide_simd(mut self, on: bool) -> Trevisan {
+        self.field = self.field.map(|f| f.with_wide_simd(on));
+        self
+    }
 }
 
 impl Extractor for Trevisan {
