@@ -1,8 +1,11 @@
 //! Benchmarks of GF(2^l) multiplication and of the Trevisan extractor at the
 //! sizes of the cost model (`spec/trevisan.md` sections 6 and 7).
 //!
-//! - `gf2l-mul/<backend>/<l>`: one product in GF(2^l), l = 64, 128, 256, 281,
-//!   521 (a dependent chain, so latency counts as it does in Horner).
+//! - `gf2l-mul/<path>/<l>`: one product in GF(2^l), l = 64, 128, 256, 261,
+//!   281, 521, for every product path of this CPU (`Field::path_name`:
+//!   portable, pclmul, vpclmul256); a dependent chain, so this is latency.
+//! - `gf2l-mul-4chains/<path>/<l>`: four independent chains per iteration
+//!   (throughput, as in the interleaved Horner loop), l = 256 and 261.
 //! - `trevisan/<n>/<variant>`: a whole extraction at n = 2^16 with the
 //!   worked-table parameters (k_s = 0.9n, eps_total = 1e-12).
 //! - `trevisan-slice/<n>/<variant>`: n = 2^20 with the table's l and design
@@ -43,19 +46,61 @@ fn ph(n: usize, m: usize, l: usize, design: DesignKind, c: u64) -> TrevisanSpec 
     }
 }
 
-fn bench_field(c: &mut Criterion) {
-    let mut g = c.benchmark_group("gf2l-mul");
+/// The product paths of this CPU: every backend, and for those that can
+/// use it, the 256-bit VPCLMULQDQ path switched off and on (named by
+/// `Field::path_name`: portable, pclmul, vpclmul256).
+fn field_paths(l: usize) -> Vec<Field> {
+    let mut v: Vec<Field> = Vec::new();
     for be in Backend::all_supported() {
-        for l in [64usize, 128, 256, 281, 521] {
-            let f = Field::with_backend(l, be).unwrap();
+        let f = Field::with_backend(l, be).unwrap();
+        for wide in [false, true] {
+            let g = f.clone().with_wide_simd(wide);
+            if !v.iter().any(|h| h.path_name() == g.path_name()) {
+                v.push(g);
+            }
+        }
+    }
+    v
+}
+
+fn bench_field(c: &mut Criterion) {
+    // Latency: each product takes the previous one as input (a dependent
+    // chain through `Field::mul`, call included), as one Horner chain does.
+    let mut g = c.benchmark_group("gf2l-mul");
+    for l in [64usize, 128, 256, 261, 281, 521] {
+        for f in field_paths(l) {
             let w = f.words();
             let a = random_bits(l, 1).words().to_vec();
             let mut x = random_bits(l, 2).words().to_vec();
             let mut t = vec![0u64; w];
-            g.bench_with_input(BenchmarkId::new(be.name(), l), &l, |b, _| {
+            g.bench_with_input(BenchmarkId::new(f.path_name(), l), &l, |b, _| {
                 b.iter(|| {
                     f.mul(&x, black_box(&a), &mut t);
                     x.copy_from_slice(&t);
+                })
+            });
+        }
+    }
+    g.finish();
+    // Throughput: four independent chains per iteration (the interleaving
+    // of the Horner loop); criterion reports time per 4 products and the
+    // product rate.
+    let mut g = c.benchmark_group("gf2l-mul-4chains");
+    g.throughput(Throughput::Elements(4));
+    for l in [256usize, 261] {
+        for f in field_paths(l) {
+            let w = f.words();
+            let a = random_bits(l, 1).words().to_vec();
+            let mut xs: Vec<Vec<u64>> = (0..4)
+                .map(|i| random_bits(l, 2 + i).words().to_vec())
+                .collect();
+            let mut t = vec![0u64; w];
+            g.bench_with_input(BenchmarkId::new(f.path_name(), l), &l, |b, _| {
+                b.iter(|| {
+                    for x in xs.iter_mut() {
+                        f.mul(x, black_box(&a), &mut t);
+                        x.copy_from_slice(&t);
+                    }
                 })
             });
         }

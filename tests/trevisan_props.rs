@@ -118,10 +118,87 @@ proptest! {
         let mut want = vec![0u64; slow.words()];
         slow.mul_generic(&a, &b, &mut want);
         for be in Backend::all_supported() {
-            let f = Field::with_backend(l, be).unwrap();
-            let mut got = vec![0u64; f.words()];
-            f.mul(&a, &b, &mut got);
-            prop_assert_eq!(&got, &want, "l = {}, backend {:?}", l, be);
+            for wide in [false, true] {
+                let f = Field::with_backend(l, be).unwrap().with_wide_simd(wide);
+                let mut got = vec![0u64; f.words()];
+                f.mul(&a, &b, &mut got);
+                prop_assert_eq!(&got, &want, "l = {}, backend {:?}, path {}", l, be, f.path_name());
+            }
+        }
+    }
+
+    /// The same on the sizes of the n = 2^16 .. 2^24 worked table (spec
+    /// section 7: l = 237, 241, 255, 261, 275, 281) and their neighbours,
+    /// with operands that are often all-ones or sparse (edge words).
+    #[test]
+    fn field_fast_product_matches_generic_on_table_sizes(
+        l in prop::sample::select(vec![
+            129usize, 192, 193, 237, 241, 254, 255, 256, 257, 261, 275, 281, 320, 321, 383, 384, 576,
+        ]),
+        sa in any::<u64>(), sb in any::<u64>(), fill in 0u8..3,
+    ) {
+        let mut a = random_bits(l, sa).words().to_vec();
+        let b = random_bits(l, sb).words().to_vec();
+        if fill > 0 {
+            // all ones below l, or only the top word
+            let w = a.len();
+            for (i, x) in a.iter_mut().enumerate() {
+                *x = if fill == 1 || i + 1 == w { u64::MAX } else { 0 };
+            }
+            if l % 64 != 0 {
+                a[w - 1] &= (1u64 << (l % 64)) - 1;
+            }
+        }
+        let slow = Field::with_backend(l, Backend::Portable).unwrap();
+        let mut want = vec![0u64; slow.words()];
+        slow.mul_generic(&a, &b, &mut want);
+        for be in Backend::all_supported() {
+            for wide in [false, true] {
+                let f = Field::with_backend(l, be).unwrap().with_wide_simd(wide);
+                let mut got = vec![0u64; f.words()];
+                f.mul(&a, &b, &mut got);
+                prop_assert_eq!(&got, &want, "l = {}, backend {:?}, path {}", l, be, f.path_name());
+            }
+        }
+    }
+
+    /// Horner with and without the 256-bit path gives the same bits as the
+    /// slow twin (PH, widths 3 to 6 words).
+    #[test]
+    fn horner_paths_match_reference(
+        l in prop::sample::select(vec![130usize, 200, 255, 256, 261, 300, 330]),
+        nb in 1usize..40, m in 1usize..80, block in any::<bool>(), data in any::<u64>(),
+    ) {
+        let spec = TrevisanSpec {
+            n: nb * l - (data as usize % l).min(nb * l - 1),
+            m,
+            one_bit: OneBit::Ph,
+            field_bits: l,
+            design: if block { DesignKind::Block } else { DesignKind::Poly },
+            design_factor: 1,
+            prime: None,
+        };
+        let x = random_bits(spec.n, data);
+        let base = Trevisan::new(&spec).unwrap();
+        let y = random_bits(base.seed_bits(), data ^ 0x5555);
+        let p = reference::Params {
+            n: spec.n, m: spec.m, one_bit: OneBit::Ph, l: spec.field_bits,
+            design: spec.design, q: base.prime(),
+        };
+        let want = Bits::from_bools(&reference::extract(
+            &p,
+            &x.iter().collect::<Vec<_>>(),
+            &y.iter().collect::<Vec<_>>(),
+        ));
+        for wide in [false, true] {
+            let tr = Trevisan::new(&spec).unwrap().with_wide_simd(wide);
+            let mut z = Bits::zeros(spec.m);
+            tr.extract(&x, &y, &mut z);
+            prop_assert_eq!(&z, &want, "wide = {}", wide);
+            let bound = tr.with_seed(&y);
+            let mut z2 = Bits::zeros(spec.m);
+            bound.extract(&x, &mut z2);
+            prop_assert_eq!(&z2, &want, "bound seed, wide = {}", wide);
         }
     }
 }

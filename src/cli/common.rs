@@ -59,6 +59,21 @@ pub fn progress(total: u64, what: &str) -> indicatif::ProgressBar {
     pb
 }
 
+/// A progress bar counted in input bits (extraction and verification),
+/// shown only when standard error is a terminal.
+#[allow(dead_code)]
+pub fn progress_bits(total: u64, what: &str) -> indicatif::ProgressBar {
+    let pb = progress(total, what);
+    pb.set_style(
+        indicatif::ProgressStyle::with_template(
+            "{msg} [{bar:40}] {percent:>3}% {human_pos}/{human_len} input bits, eta {eta}",
+        )
+        .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar())
+        .progress_chars("=> "),
+    );
+    pb
+}
+
 /// File format names on the command line.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
 pub enum FormatArg {

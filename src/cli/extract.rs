@@ -190,6 +190,24 @@ pub struct Resolved {
     pub source: Source,
 }
 
+impl Resolved {
+    /// The input bits a run will hash, for the progress bar: whole blocks
+    /// of the bits asked for, or of the file when its size tells (a packed
+    /// regular file, or input already read); 0 (unknown) otherwise.
+    pub fn bar_total(&self, input_bits: Option<u64>) -> u64 {
+        let n = self.plan.input_bits().max(1) as u64;
+        let avail = match (input_bits, &self.source) {
+            (Some(t), _) => t,
+            (None, Source::Memory { bits, .. }) => bits.len() as u64,
+            (None, Source::File(f)) if !f.is_std() && f.format == sluice::bits::Format::Packed => {
+                pipeline::count_bits(f).unwrap_or(0)
+            }
+            (None, Source::File(_)) => 0,
+        };
+        avail / n * n
+    }
+}
+
 /// The extractor, its output size and the block layout of a run.
 pub struct Layout {
     pub extractor: ExtractorArg,
@@ -445,8 +463,7 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
         p.print_summary(c.quiet);
     }
     let output = c.files.output(&a.output);
-    let total = layout.input_bits.unwrap_or(0);
-    let pb = common::progress(total, "extracting");
+    let pb = common::progress_bits(r.bar_total(layout.input_bits), "extracting");
     let run = Run {
         input: r.source,
         input_bits: layout.input_bits,
@@ -538,7 +555,7 @@ pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
     };
     let r = resolve(c, &layout, None)?;
     let claimed = c.files.output(&a.claimed);
-    let pb = common::progress(layout.input_bits.unwrap_or(0), "verifying");
+    let pb = common::progress_bits(r.bar_total(layout.input_bits), "verifying");
     let run = Run {
         input: r.source,
         input_bits: layout.input_bits,

@@ -437,7 +437,7 @@ pub fn run_extract(a: super::extract::ExtractArgs) -> anyhow::Result<ExitCode> {
         }
     };
     let output = c.files.output(&a.output);
-    let pb = common::progress(layout.input_bits.unwrap_or(0), "extracting");
+    let pb = common::progress_bits(r.bar_total(layout.input_bits), "extracting");
     let run = pipeline::Run {
         input: r.source,
         input_bits: layout.input_bits,

@@ -24,6 +24,7 @@ pub use two_source::{TwoSource, TwoSourceError};
 use crate::bits::Bits;
 use crate::gf2::Backend;
 use std::fmt;
+use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::Mutex;
 
 /// How a hashing extractor computes its product.
@@ -135,12 +136,57 @@ pub trait Extractor: Send + Sync {
     /// Binds a seed for many blocks; seed-dependent precomputation happens
     /// here, once.
     fn with_seed<'a>(&'a self, seed: &'a Bits) -> Box<dyn SeededExtractor + 'a>;
+    /// [`extract`](Self::extract), reporting output bits done to
+    /// `progress` while it runs; the reports add up to the output length.
+    /// The default reports once, at the end; extractors that take long on
+    /// one block (Trevisan) report as they go.
+    fn extract_with_progress(
+        &self,
+        input: &Bits,
+        seed: &Bits,
+        out: &mut Bits,
+        progress: &dyn Progress,
+    ) {
+        self.extract(input, seed, out);
+        progress.add(out.len() as u64);
+    }
 }
 
 /// An extractor with its seed bound (see [`Extractor::with_seed`]).
 pub trait SeededExtractor: Send + Sync {
     /// Extracts one block with the bound seed.
     fn extract(&self, input: &Bits, out: &mut Bits);
+    /// [`extract`](Self::extract), reporting output bits done to
+    /// `progress` (see [`Extractor::extract_with_progress`]).
+    fn extract_with_progress(&self, input: &Bits, out: &mut Bits, progress: &dyn Progress) {
+        self.extract(input, out);
+        progress.add(out.len() as u64);
+    }
+}
+
+/// Where an extractor reports progress inside one block: `add(k)` says that
+/// k more output bits are done. Called from worker threads, so it must be
+/// cheap and must not allocate; reports carry counts only, never bits.
+pub trait Progress: Sync {
+    /// k more output bits are done.
+    fn add(&self, output_bits: u64);
+}
+
+/// A counter that the caller polls from another thread.
+impl Progress for AtomicU64 {
+    #[inline]
+    fn add(&self, output_bits: u64) {
+        self.fetch_add(output_bits, Ordering::Relaxed);
+    }
+}
+
+/// Ignores every report.
+#[derive(Clone, Copy, Debug, Default)]
+pub struct NoProgress;
+
+impl Progress for NoProgress {
+    #[inline]
+    fn add(&self, _output_bits: u64) {}
 }
 
 /// Binds a seed without precomputation (for extractors that need none).
@@ -160,6 +206,11 @@ impl<'a, E: Extractor + ?Sized> Unprepared<'a, E> {
 impl<E: Extractor + ?Sized> SeededExtractor for Unprepared<'_, E> {
     fn extract(&self, input: &Bits, out: &mut Bits) {
         self.ext.extract(input, self.seed, out)
+    }
+
+    fn extract_with_progress(&self, input: &Bits, out: &mut Bits, progress: &dyn Progress) {
+        self.ext
+            .extract_with_progress(input, self.seed, out, progress)
     }
 }
 

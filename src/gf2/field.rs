@@ -131,10 +131,8 @@ pub fn clmul_words(backend: Backend, a: &[u64], b: &[u64], out: &mut [u64]) {
         out.len()
     );
     out.fill(0);
+    // No skipping of zero words: the time must not depend on the operands.
     for (i, &x) in a.iter().enumerate() {
-        if x == 0 {
-            continue;
-        }
         for (j, &y) in b.iter().enumerate() {
             let (lo, hi) = backend.clmul64(x, y);
             out[i + j] ^= lo;
@@ -193,15 +191,22 @@ impl Reducer {
 
     /// Reduces a product of `2w` words in place (generic, any l): the result
     /// is in `p[..w]` and `p[w..]` is zero.
+    ///
+    /// The number of folds depends only on l, P_l and the length (each fold
+    /// lowers the largest possible degree from `deg` to `deg - l + e`, e the
+    /// largest low exponent), never on the data: no early exit, no skipped
+    /// zero words.
     fn reduce_slice(&self, p: &mut [u64]) {
         let l = self.l;
         let (lw, ls) = (l / 64, l % 64);
         let total = p.len();
+        let e_max = self.low[..self.nlow].iter().copied().max().unwrap_or(0);
+        let mut deg = 64 * total - 1;
         let mut h = [0u64; MAX_WORDS + 1];
-        loop {
+        while deg >= l {
+            deg = deg - l + e_max;
             // h = p >> l
             let hw = total - lw;
-            let mut any = 0u64;
             for j in 0..hw {
                 let lo = p[lw + j] >> ls;
                 let hi = if ls != 0 && lw + j + 1 < total {
@@ -210,10 +215,6 @@ impl Reducer {
                     0
                 };
                 h[j] = lo | hi;
-                any |= h[j];
-            }
-            if any == 0 {
-                return;
             }
             // clear bits >= l
             if ls != 0 {
@@ -225,9 +226,6 @@ impl Reducer {
             for &e in &self.low[..self.nlow] {
                 let (ew, es) = (e / 64, e % 64);
                 for j in 0..hw {
-                    if h[j] == 0 {
-                        continue;
-                    }
                     if j + ew < total {
                         p[j + ew] ^= h[j] << es;
                     }
@@ -250,6 +248,9 @@ pub struct Field {
     fast: bool,
     /// PCLMULQDQ detected for this backend.
     pclmul: bool,
+    /// 256-bit VPCLMULQDQ (with AVX2) detected and in use for the
+    /// fixed-width path ([`vpclmul256_mul_body`]).
+    wide: bool,
 }
 
 impl Field {
@@ -272,13 +273,42 @@ impl Field {
         let pclmul = PclmulKernel::new(backend).is_some();
         #[cfg(not(target_arch = "x86_64"))]
         let pclmul = false;
+        let fast = red.two_folds();
         Ok(Field {
             poly,
             backend,
             red,
-            fast: red.two_folds(),
+            fast,
             pclmul,
+            wide: pclmul && fast && red.w >= WIDE_MIN_WORDS && wide_supported(),
         })
+    }
+
+    /// Whether the fixed-width path uses 256-bit VPCLMULQDQ (two 64 x 64
+    /// products per instruction). Chosen at run time: the backend is not
+    /// portable, the CPU has vpclmulqdq and avx2, and l > 128.
+    pub fn wide_simd(&self) -> bool {
+        self.wide
+    }
+
+    /// The same field with the 256-bit VPCLMULQDQ path switched off (`false`)
+    /// or back on where supported (`true`); for tests and benches that
+    /// compare the paths.
+    pub fn with_wide_simd(mut self, on: bool) -> Field {
+        self.wide =
+            on && self.pclmul && self.fast && self.red.w >= WIDE_MIN_WORDS && wide_supported();
+        self
+    }
+
+    /// Name of the product path in use: `portable`, `pclmul`, `vpclmul256`
+    /// (fixed width) or `generic` (l > 576).
+    pub fn path_name(&self) -> &'static str {
+        match (self.fast, self.pclmul, self.wide) {
+            (false, _, _) => "generic",
+            (true, false, _) => "portable",
+            (true, true, false) => "pclmul",
+            (true, true, true) => "vpclmul256",
+        }
     }
 
     /// l, the number of bits of an element.
@@ -308,6 +338,11 @@ impl Field {
     /// Whether the fixed-width fast path applies and PCLMULQDQ is in use.
     pub(crate) fn fast_flags(&self) -> (bool, bool) {
         (self.fast, self.pclmul)
+    }
+
+    /// Whether the 256-bit VPCLMULQDQ path is in use.
+    pub(crate) fn wide_flag(&self) -> bool {
+        self.wide
     }
 
     /// `out = a * b` in GF(2^l). Operands must be reduced (no bits at or
@@ -592,6 +627,112 @@ macro_rules! pclmul_mul_body {
 #[cfg(target_arch = "x86_64")]
 pub(crate) use pclmul_mul_body;
 
+/// Smallest element width (words) for the 256-bit path; narrower fields
+/// keep the 128-bit one.
+const WIDE_MIN_WORDS: usize = 3;
+
+/// Whether 256-bit VPCLMULQDQ with AVX2 runs here, with BMI2 for the shifts
+/// of the reduction by run-time amounts (run-time detection; the
+/// test-only feature `no_vpclmul` switches it off like the AVX-512 backend).
+fn wide_supported() -> bool {
+    #[cfg(target_arch = "x86_64")]
+    {
+        !cfg!(feature = "no_vpclmul")
+            && !cfg!(miri)
+            && std::is_x86_feature_detected!("pclmulqdq")
+            && std::is_x86_feature_detected!("avx2")
+            && std::is_x86_feature_detected!("vpclmulqdq")
+            && std::is_x86_feature_detected!("bmi2")
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    {
+        false
+    }
+}
+
+/// Body of the fixed-width product with 256-bit VPCLMULQDQ, then the same
+/// reduction as [`pclmul_mul_body`]. Each instruction makes two 64 x 64
+/// products: `a_i` broadcast to both 128-bit lanes times the pair
+/// (`b_2k` in lane 0, `b_2k+1` in lane 1), which land at word offsets
+/// i + 2k and i + 2k + 1; `acc[s]` collects the pairs of offset s. W
+/// ceil(W/2) instructions in all (8 for W = 4, 15 for W = 5) instead of W^2.
+/// The pairs of `b` depend only on `b`, so in Horner (b = alpha) they are
+/// hoisted out of the loop. Must be expanded inside `unsafe` code running
+/// with pclmulqdq, avx2 and vpclmulqdq enabled (and bmi2, for shifts by
+/// run-time amounts without moves to cl).
+#[cfg(target_arch = "x86_64")]
+macro_rules! vpclmul256_mul_body {
+    ($w:ident, $w2:ident, $red:expr, $a:expr, $b:expr) => {{
+        use core::arch::x86_64::*;
+        let (a, b): (&[u64; $w], &[u64; $w]) = ($a, $b);
+        let mut bp = [_mm256_setzero_si256(); $w];
+        for k in 0..$w.div_ceil(2) {
+            let lo = b[2 * k];
+            let hi = if 2 * k + 1 < $w { b[2 * k + 1] } else { 0 };
+            bp[k] = _mm256_set_epi64x(0, hi as i64, 0, lo as i64);
+        }
+        // acc[s]: lane 0 holds products at offset s, lane 1 at offset s + 1
+        let mut acc = [_mm256_setzero_si256(); $w2];
+        for i in 0..$w {
+            let ai = _mm256_set1_epi64x(a[i] as i64);
+            for k in 0..$w.div_ceil(2) {
+                let pr = _mm256_clmulepi64_epi128(ai, bp[k], 0x00);
+                acc[i + 2 * k] = _mm256_xor_si256(acc[i + 2 * k], pr);
+            }
+        }
+        // 128-bit slots at even word offsets go to `even`, odd ones to `odd`
+        // (split across two even slots at the end, as in pclmul_mul_body).
+        let mut even = [_mm_setzero_si128(); $w];
+        let mut odd = [_mm_setzero_si128(); $w];
+        for s in 0..$w + 2 * ($w.div_ceil(2) - 1) {
+            let lo = _mm256_castsi256_si128(acc[s]);
+            let hi = _mm256_extracti128_si256::<1>(acc[s]);
+            if s % 2 == 0 {
+                even[s / 2] = _mm_xor_si128(even[s / 2], lo);
+                odd[s / 2] = _mm_xor_si128(odd[s / 2], hi);
+            } else {
+                odd[s / 2] = _mm_xor_si128(odd[s / 2], lo);
+                // offset s + 1 is even; beyond 2W - 2 only zero products
+                // (the padding word of odd W) land there
+                let e = s / 2 + 1;
+                if e < $w {
+                    even[e] = _mm_xor_si128(even[e], hi);
+                }
+            }
+        }
+        for k in 0..$w - 1 {
+            even[k] = _mm_xor_si128(even[k], _mm_slli_si128(odd[k], 8));
+            even[k + 1] = _mm_xor_si128(even[k + 1], _mm_srli_si128(odd[k], 8));
+        }
+        // Words are moved out by register extracts, not a store and
+        // narrower reloads (which would defeat store-to-load forwarding).
+        let mut p = [0u64; $w2];
+        for k in 0..$w {
+            p[2 * k] = _mm_cvtsi128_si64(even[k]) as u64;
+            p[2 * k + 1] = _mm_extract_epi64::<1>(even[k]) as u64;
+        }
+        $crate::gf2::field::reduce_fixed::<$w, $w2>($red, p)
+    }};
+}
+#[cfg(target_arch = "x86_64")]
+pub(crate) use vpclmul256_mul_body;
+
+/// Fixed-width product and reduction with 256-bit VPCLMULQDQ.
+///
+/// # Safety
+/// The CPU must support pclmulqdq, avx2, vpclmulqdq and bmi2
+/// ([`wide_supported`]).
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "pclmulqdq,sse2,avx,avx2,vpclmulqdq,bmi2")]
+#[inline]
+pub(crate) unsafe fn mul_fixed_vpclmul256<const W: usize, const W2: usize>(
+    red: &Reducer,
+    a: &[u64; W],
+    b: &[u64; W],
+) -> [u64; W] {
+    vpclmul256_mul_body!(W, W2, red, a, b)
+}
+
 /// Fixed-width product and reduction with PCLMULQDQ (one call per product;
 /// hot loops paste [`pclmul_mul_body`] instead, because LLVM does not always
 /// inline a large `target_feature` function into its caller).
@@ -612,6 +753,14 @@ pub(crate) unsafe fn mul_fixed_pclmul<const W: usize, const W2: usize>(
 fn mul_fast<const W: usize, const W2: usize>(field: &Field, a: &[u64], b: &[u64], out: &mut [u64]) {
     let a: &[u64; W] = a.try_into().expect("length checked");
     let b: &[u64; W] = b.try_into().expect("length checked");
+    #[cfg(target_arch = "x86_64")]
+    if field.wide {
+        // SAFETY: `field.wide` is set only when `wide_supported` found
+        // pclmulqdq, avx2, vpclmulqdq and bmi2.
+        let r = unsafe { mul_fixed_vpclmul256::<W, W2>(&field.red, a, b) };
+        out.copy_from_slice(&r);
+        return;
+    }
     #[cfg(target_arch = "x86_64")]
     if field.pclmul {
         // SAFETY: `field.pclmul` is set only when `PclmulKernel::new`
@@ -778,8 +927,12 @@ mod tests {
             ])
             .collect();
         for l in sizes {
-            for be in Backend::all_supported() {
+            let fields = Backend::all_supported().into_iter().flat_map(|be| {
                 let f = Field::with_backend(l, be).unwrap();
+                [f.clone().with_wide_simd(false), f.with_wide_simd(true)]
+            });
+            for f in fields {
+                let be = (f.backend(), f.path_name());
                 for _ in 0..8 {
                     let a = rng.element(l);
                     let b = rng.element(l);

@@ -15,11 +15,13 @@ pub mod test_hook;
 
 use crate::bits::io::{open_input, BitWriter, BlockReader};
 use crate::bits::{BitOrder, Bits, Error as BitsError, ErrorKind as BitsErrorKind, Format};
-use crate::extract::Extractor;
+use crate::extract::{Extractor, SeededExtractor};
 use atomic::AtomicFile;
 use rayon::prelude::*;
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
+use std::time::Duration;
 
 /// Where bits come from and how they are written.
 #[derive(Clone, Debug)]
@@ -137,9 +139,71 @@ pub enum Error {
 /// Blocks per parallel batch, and the memory it may take.
 const BATCH_BYTES: usize = 256 << 20;
 
+/// How often the progress of a running batch is read.
+const PROGRESS_EVERY: Duration = Duration::from_millis(100);
+
+/// Runs one batch of blocks on all cores. While it runs, the calling thread
+/// reads the output bits done (reported by the extractor from its workers,
+/// [`SeededExtractor::extract_with_progress`]) every [`PROGRESS_EVERY`] and
+/// calls `progress` with the equivalent number of input bits of the batch
+/// (done * n / m, below the batch total); the caller reports the exact total
+/// after the batch.
+fn run_batch(
+    bound: &dyn SeededExtractor,
+    inputs: &[Bits],
+    outputs: &mut [Bits],
+    (n, m): (usize, usize),
+    progress: &mut dyn FnMut(u64),
+) {
+    let done = AtomicU64::new(0);
+    let mut work = |done: &AtomicU64| {
+        inputs
+            .par_iter()
+            .zip(outputs.par_iter_mut())
+            .for_each(|(x, y)| bound.extract_with_progress(x, y, done))
+    };
+    if rayon::current_thread_index().is_some() {
+        // Already on a pool thread: waiting here would hold a worker, so
+        // run without intermediate reports.
+        work(&done);
+        return;
+    }
+    /// Marks the batch finished even if it panics (the scope re-raises the
+    /// panic), so the reading loop always ends.
+    struct Finish<'a>(&'a AtomicBool, std::thread::Thread);
+    impl Drop for Finish<'_> {
+        fn drop(&mut self) {
+            self.0.store(true, Ordering::Release);
+            self.1.unpark();
+        }
+    }
+    let finished = AtomicBool::new(false);
+    let total_out = (inputs.len() * m) as u128;
+    let me = std::thread::current();
+    rayon::in_place_scope(|s| {
+        let (finished, done) = (&finished, &done);
+        s.spawn(move |_| {
+            let _finish = Finish(finished, me);
+            work(done);
+        });
+        let mut last = 0u64;
+        while !finished.load(Ordering::Acquire) {
+            std::thread::park_timeout(PROGRESS_EVERY);
+            let d = done.load(Ordering::Relaxed);
+            if d != last && !finished.load(Ordering::Acquire) {
+                last = d;
+                let d = (d as u128).min(total_out.saturating_sub(1));
+                progress((d * n as u128 / m.max(1) as u128) as u64);
+            }
+        }
+    });
+}
+
 impl Run<'_> {
     /// Runs the extraction; `progress` is called with the input bits
-    /// consumed so far.
+    /// consumed so far: after every batch of blocks and, while a batch runs,
+    /// about every 100 ms with the input-bit equivalent of the output bits
+    /// the extractor reports done (so one long block moves it too).
     pub fn execute(&self, progress: impl FnMut(u64)) -> Result<Report, Error> {
         let out_err = |e: io::Error| Error::Output {
             path: self.output.path.clone(),
@@ -248,10 +312,14 @@ impl Run<'_> {
                 filled += 1;
             }
             if filled > 0 {
-                inputs[..filled]
-                    .par_iter()
-                    .zip(outputs[..filled].par_iter_mut())
-                    .for_each(|(x, y)| bound.extract(x, y));
+                let before = report.blocks * n as u64;
+                run_batch(
+                    bound.as_ref(),
+                    &inputs[..filled],
+                    &mut outputs[..filled],
+                    (n, m),
+                    &mut |p| progress(before + p),
+                );
                 for y in &outputs[..filled] {
                     consume(y)?;
                 }

@@ -30,7 +30,9 @@ pub use design::{Design, DesignKind, Group};
 pub use onebit::OneBit;
 
 use crate::bits::Bits;
-use crate::extract::{check_len, Extractor, ScratchPool, SeededExtractor, Unprepared};
+use crate::extract::{
+    check_len, Extractor, NoProgress, Progress, ScratchPool, SeededExtractor, Unprepared,
+};
 use crate::gf2::field::{Field, FieldError, MAX_FIELD_BITS};
 use crate::gf2::Backend;
 use std::fmt;
@@ -322,6 +324,15 @@ impl Trevisan {
     pub fn field(&self) -> Option<&Field> {
         self.field.as_ref()
     }
+
+    /// The same plan with the 256-bit VPCLMULQDQ field path switched off or
+    /// on ([`Field::with_wide_simd`]); for tests and benches that compare
+    /// the paths.
+    #[doc(hidden)]
+    pub fn with_wide_simd(mut self, on: bool) -> Trevisan {
+        self.field = self.field.map(|f| f.with_wide_simd(on));
+        self
+    }
 }
 
 impl Extractor for Trevisan {
@@ -342,10 +353,21 @@ impl Extractor for Trevisan {
     }
 
     fn extract(&self, input: &Bits, seed: &Bits, out: &mut Bits) {
+        self.extract_with_progress(input, seed, out, &NoProgress);
+    }
+
+    /// Reports after every task of 64 output bits (from the rayon workers).
+    fn extract_with_progress(
+        &self,
+        input: &Bits,
+        seed: &Bits,
+        out: &mut Bits,
+        progress: &dyn Progress,
+    ) {
         check_len("input", self.spec.n, input.len());
         check_len("seed", self.seed_bits(), seed.len());
         check_len("output", self.spec.m, out.len());
-        eval::extract(self, input, &eval::SeedView::Raw(seed), out);
+        eval::extract(self, input, &eval::SeedView::Raw(seed), out, progress);
     }
 
     fn with_seed<'a>(&'a self, seed: &'a Bits) -> Box<dyn SeededExtractor + 'a> {
