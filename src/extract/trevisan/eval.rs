@@ -512,27 +512,22 @@ fn ip_task(
             } else {
                 (1u64 << run) - 1
             };
+            // Every input position is visited and masked by its bit, so
+            // time and addresses do not depend on the (secret) input.
             let mut acc = 0u64;
-            for (wi, &xw) in x.words().iter().enumerate() {
-                let mut bits = xw;
-                while bits != 0 {
-                    let a = (wi * 64) as u64 + bits.trailing_zeros() as u64;
-                    bits &= bits - 1;
-                    acc ^= read64(y, g.offset + a * g.width + u0);
-                }
+            for a in 0..x.len() as u64 {
+                let xa = (x.words()[(a / 64) as usize] >> (a % 64)) & 1;
+                acc ^= read64(y, g.offset + a * g.width + u0) & xa.wrapping_neg();
             }
             word |= (acc & mask) << (i - first);
             i += run;
         } else {
             tr.design.positions(i, &mut s.pos);
+            // As above: all positions, masked, independent of the input.
             let mut p = 0u64;
-            for (wi, &xw) in x.words().iter().enumerate() {
-                let mut bits = xw;
-                while bits != 0 {
-                    let a = wi * 64 + bits.trailing_zeros() as usize;
-                    bits &= bits - 1;
-                    p ^= bit(y, s.pos[a]);
-                }
+            for (a, &pos) in s.pos.iter().enumerate().take(x.len()) {
+                let xa = (x.words()[a / 64] >> (a % 64)) & 1;
+                p ^= bit(y, pos) & xa;
             }
             word |= p << (i - first);
             i += 1;
