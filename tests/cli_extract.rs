@@ -3,32 +3,9 @@
 use sluice::bits::{BitOrder, Bits};
 use sluice::extract::reference;
 use std::path::Path;
-use std::process::{Command, Output};
 
-const BIN: &str = env!("CARGO_BIN_EXE_sluice");
-
-fn sluice(dir: &Path, args: &[&str]) -> Output {
-    Command::new(BIN)
-        .current_dir(dir)
-        .args(args)
-        .output()
-        .unwrap()
-}
-
-fn pseudo(seed: u64, n: usize) -> Bits {
-    let mut s = seed | 1;
-    Bits::from_words(
-        (0..n.div_ceil(64))
-            .map(|_| {
-                s ^= s << 13;
-                s ^= s >> 7;
-                s ^= s << 17;
-                s
-            })
-            .collect(),
-        n,
-    )
-}
+mod cli_common;
+use cli_common::{pseudo, sluice};
 
 #[test]
 fn blocks_match_the_matrix_definition_and_verify_agrees() {

@@ -7,31 +7,8 @@ use sluice::extract::reference;
 use std::path::Path;
 use std::process::{Command, Output};
 
-const BIN: &str = env!("CARGO_BIN_EXE_sluice");
-
-fn sluice(dir: &Path, args: &[&str]) -> Output {
-    Command::new(BIN)
-        .current_dir(dir)
-        .args(args)
-        .output()
-        .unwrap()
-}
-
-fn pseudo(seed: u64, n: usize) -> Bits {
-    // xorshift64 (common practice for test data)
-    let mut s = seed | 1;
-    Bits::from_words(
-        (0..n.div_ceil(64))
-            .map(|_| {
-                s ^= s << 13;
-                s ^= s >> 7;
-                s ^= s << 17;
-                s
-            })
-            .collect(),
-        n,
-    )
-}
+mod cli_common;
+use cli_common::{pseudo, sluice};
 
 fn err(o: &Output) -> String {
     String::from_utf8_lossy(&o.stderr).into_owned()
@@ -300,7 +277,7 @@ fn refusals_say_what_and_where() {
 }
 
 fn plan(args: &[&str], cache: &Path) -> Output {
-    Command::new(BIN)
+    Command::new(env!("CARGO_BIN_EXE_sluice"))
         .arg("plan")
         .args(args)
         .env("XDG_CACHE_HOME", cache)
