@@ -3,7 +3,8 @@
 //!
 //! - `gf2l-mul/<path>/<l>`: one product in GF(2^l), l = 64, 128, 256, 261,
 //!   281, 521, for every product path of this CPU (`Field::path_name`:
-//!   portable, pclmul, vpclmul256); a dependent chain, so this is latency.
+//!   portable, pclmul, vpclmul256, pclmul-fold); a dependent chain, so this
+//!   is latency.
 //! - `gf2l-mul-4chains/<path>/<l>`: four independent chains per iteration
 //!   (throughput, as in the interleaved Horner loop), l = 256 and 261.
 //! - `trevisan/<n>/<variant>`: a whole extraction at n = 2^16 with the
@@ -18,7 +19,7 @@ use criterion::{black_box, criterion_group, BenchmarkId, Criterion, Throughput};
 use sluice::bits::Bits;
 use sluice::extract::trevisan::{DesignKind, OneBit, Trevisan, TrevisanSpec};
 use sluice::extract::Extractor;
-use sluice::gf2::field::Field;
+use sluice::gf2::field::{Field, FieldPath};
 use sluice::gf2::Backend;
 use std::time::{Duration, Instant};
 
@@ -46,17 +47,15 @@ fn ph(n: usize, m: usize, l: usize, design: DesignKind, c: u64) -> TrevisanSpec 
     }
 }
 
-/// The product paths of this CPU: every backend, and for those that can
-/// use it, the 256-bit VPCLMULQDQ path switched off and on (named by
-/// `Field::path_name`: portable, pclmul, vpclmul256).
+/// The fixed-width product paths of this CPU, each once (`Field::paths`;
+/// named by `FieldPath::name`: portable, pclmul, vpclmul256, pclmul-fold).
 fn field_paths(l: usize) -> Vec<Field> {
     let mut v: Vec<Field> = Vec::new();
     for be in Backend::all_supported() {
         let f = Field::with_backend(l, be).unwrap();
-        for wide in [false, true] {
-            let g = f.clone().with_wide_simd(wide);
-            if !v.iter().any(|h| h.path_name() == g.path_name()) {
-                v.push(g);
+        for path in f.paths() {
+            if path != FieldPath::Generic && !v.iter().any(|h| h.path() == path) {
+                v.push(f.clone().with_path(path).unwrap());
             }
         }
     }

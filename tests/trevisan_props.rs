@@ -118,8 +118,9 @@ proptest! {
         let mut want = vec![0u64; slow.words()];
         slow.mul_generic(&a, &b, &mut want);
         for be in Backend::all_supported() {
-            for wide in [false, true] {
-                let f = Field::with_backend(l, be).unwrap().with_wide_simd(wide);
+            let base = Field::with_backend(l, be).unwrap();
+            for path in base.paths() {
+                let f = base.clone().with_path(path).unwrap();
                 let mut got = vec![0u64; f.words()];
                 f.mul(&a, &b, &mut got);
                 prop_assert_eq!(&got, &want, "l = {}, backend {:?}, path {}", l, be, f.path_name());
@@ -153,8 +154,9 @@ proptest! {
         let mut want = vec![0u64; slow.words()];
         slow.mul_generic(&a, &b, &mut want);
         for be in Backend::all_supported() {
-            for wide in [false, true] {
-                let f = Field::with_backend(l, be).unwrap().with_wide_simd(wide);
+            let base = Field::with_backend(l, be).unwrap();
+            for path in base.paths() {
+                let f = base.clone().with_path(path).unwrap();
                 let mut got = vec![0u64; f.words()];
                 f.mul(&a, &b, &mut got);
                 prop_assert_eq!(&got, &want, "l = {}, backend {:?}, path {}", l, be, f.path_name());
@@ -162,7 +164,7 @@ proptest! {
         }
     }
 
-    /// Horner with and without the 256-bit path gives the same bits as the
+    /// Horner on every product path of this CPU gives the same bits as the
     /// slow twin (PH, widths 3 to 6 words).
     #[test]
     fn horner_paths_match_reference(
@@ -190,15 +192,15 @@ proptest! {
             &x.iter().collect::<Vec<_>>(),
             &y.iter().collect::<Vec<_>>(),
         ));
-        for wide in [false, true] {
-            let tr = Trevisan::new(&spec).unwrap().with_wide_simd(wide);
+        for path in base.field().unwrap().paths() {
+            let tr = Trevisan::new(&spec).unwrap().with_field_path(path).unwrap();
             let mut z = Bits::zeros(spec.m);
             tr.extract(&x, &y, &mut z);
-            prop_assert_eq!(&z, &want, "wide = {}", wide);
+            prop_assert_eq!(&z, &want, "path {}", path.name());
             let bound = tr.with_seed(&y);
             let mut z2 = Bits::zeros(spec.m);
             bound.extract(&x, &mut z2);
-            prop_assert_eq!(&z2, &want, "bound seed, wide = {}", wide);
+            prop_assert_eq!(&z2, &want, "bound seed, path {}", path.name());
         }
     }
 }

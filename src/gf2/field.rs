@@ -22,12 +22,15 @@
 // counter on purpose (they unroll to fixed word positions).
 #![allow(clippy::needless_range_loop)]
 
+#[path = "field_fold.rs"]
+pub(crate) mod fold;
 #[path = "field_search.rs"]
 pub mod search;
 #[path = "field_table.rs"]
 mod table;
 
 use crate::gf2::Backend;
+use fold::FoldConsts;
 use std::fmt;
 
 /// Largest field size l supported.
@@ -49,6 +52,10 @@ pub enum FieldError {
     /// The carry-less kernel asked for does not run on this CPU.
     #[error("carry-less backend '{0}' is not supported by this CPU")]
     BackendUnsupported(&'static str),
+    /// The product path asked for does not run for this field, backend or
+    /// CPU ([`Field::paths`]).
+    #[error("product path '{0}' does not run for this field on this CPU")]
+    PathUnavailable(&'static str),
 }
 
 /// The field polynomial P_l (see the module docs).
@@ -238,20 +245,64 @@ impl Reducer {
     }
 }
 
-/// GF(2^l) with its field polynomial and carry-less backend.
+/// How [`Field::mul`] computes a product. Every path gives the same
+/// elements (tested); [`Field::paths`] lists those that run for a field on
+/// this CPU and [`Field::with_path`] picks one (for tests and benches).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+pub enum FieldPath {
+    /// Any l: [`clmul_words`] with the field's backend and a word-level fold
+    /// loop ([`Field::mul_generic`]).
+    Generic,
+    /// l <= 576: fixed-width schoolbook with portable 64 x 64 products and a
+    /// shift-and-XOR reduction.
+    Portable,
+    /// As `Portable` with PCLMULQDQ products.
+    Pclmul,
+    /// PCLMULQDQ products and a reduction by two carry-less products with
+    /// constants, all in vector registers (`field_fold.rs`; middle
+    /// exponents below 64).
+    PclmulFold,
+    /// 256-bit VPCLMULQDQ products (two per instruction, AVX2) and the
+    /// shift-and-XOR reduction.
+    Vpclmul256,
+    /// 256-bit VPCLMULQDQ products and the register fold of `PclmulFold`.
+    Vpclmul256Fold,
+}
+
+impl FieldPath {
+    /// Short name (bench and report labels).
+    pub fn name(self) -> &'static str {
+        match self {
+            FieldPath::Generic => "generic",
+            FieldPath::Portable => "portable",
+            FieldPath::Pclmul => "pclmul",
+            FieldPath::PclmulFold => "pclmul-fold",
+            FieldPath::Vpclmul256 => "vpclmul256",
+            FieldPath::Vpclmul256Fold => "vpclmul256-fold",
+        }
+    }
+}
+
+/// GF(2^l) with its field polynomial, carry-less backend and product path.
 #[derive(Clone, Debug)]
 pub struct Field {
     poly: FieldPoly,
     backend: Backend,
     red: Reducer,
-    /// Fixed-width path applies (two folds suffice).
-    fast: bool,
-    /// PCLMULQDQ detected for this backend.
-    pclmul: bool,
-    /// 256-bit VPCLMULQDQ (with AVX2) detected and in use for the
-    /// fixed-width path ([`vpclmul256_mul_body`]).
-    wide: bool,
+    /// Constants of [`FieldPath::PclmulFold`], where it applies.
+    fold: Option<FoldConsts>,
+    path: FieldPath,
+    /// The product of `path` at this width, chosen once ([`select_mul`]);
+    /// called only by [`Field::mul`] after its length checks.
+    mul_fn: MulFn,
 }
+
+/// A product `out = a * b` of checked-length slices (see [`select_mul`]).
+///
+/// # Safety
+/// Each slice must hold exactly `field.words()` words, and the CPU must
+/// support the features of the field's path (checked when it was chosen).
+type MulFn = unsafe fn(field: &Field, a: &[u64], b: &[u64], out: &mut [u64]);
 
 impl Field {
     /// The field GF(2^l) with the fastest backend of this CPU.
@@ -259,7 +310,8 @@ impl Field {
         Field::with_backend(l, Backend::detect())
     }
 
-    /// The field GF(2^l) with a given backend (for tests and benches).
+    /// The field GF(2^l) with a given backend (for tests and benches), on
+    /// the fastest product path that backend allows.
     pub fn with_backend(l: usize, backend: Backend) -> Result<Field, FieldError> {
         let poly = FieldPoly::for_degree(l).ok_or(FieldError::UnsupportedSize {
             l,
@@ -269,46 +321,80 @@ impl Field {
             return Err(FieldError::BackendUnsupported(backend.name()));
         }
         let red = Reducer::new(&poly);
-        #[cfg(target_arch = "x86_64")]
-        let pclmul = PclmulKernel::new(backend).is_some();
-        #[cfg(not(target_arch = "x86_64"))]
-        let pclmul = false;
-        let fast = red.two_folds();
-        Ok(Field {
+        let f = Field {
             poly,
             backend,
             red,
-            fast,
-            pclmul,
-            wide: pclmul && fast && red.w >= WIDE_MIN_WORDS && wide_supported(),
-        })
+            fold: FoldConsts::new(&red),
+            path: FieldPath::Generic,
+            mul_fn: mul_generic_fn,
+        };
+        // `paths` lists the slower paths first.
+        let best = *f.paths().last().expect("the generic path always runs");
+        f.with_path(best)
     }
 
-    /// Whether the fixed-width path uses 256-bit VPCLMULQDQ (two 64 x 64
-    /// products per instruction). Chosen at run time: the backend is not
-    /// portable, the CPU has vpclmulqdq and avx2, and l > 128.
-    pub fn wide_simd(&self) -> bool {
-        self.wide
-    }
-
-    /// The same field with the 256-bit VPCLMULQDQ path switched off (`false`)
-    /// or back on where supported (`true`); for tests and benches that
-    /// compare the paths.
-    pub fn with_wide_simd(mut self, on: bool) -> Field {
-        self.wide =
-            on && self.pclmul && self.fast && self.red.w >= WIDE_MIN_WORDS && wide_supported();
-        self
-    }
-
-    /// Name of the product path in use: `portable`, `pclmul`, `vpclmul256`
-    /// (fixed width) or `generic` (l > 576).
-    pub fn path_name(&self) -> &'static str {
-        match (self.fast, self.pclmul, self.wide) {
-            (false, _, _) => "generic",
-            (true, false, _) => "portable",
-            (true, true, false) => "pclmul",
-            (true, true, true) => "vpclmul256",
+    /// The product paths that run for this field and backend on this CPU,
+    /// slowest first (the last is the default). The fixed-width paths need
+    /// two folds to reduce (every table entry, tested) and l <= 576;
+    /// PCLMULQDQ paths need a backend other than `Portable`.
+    ///
+    /// Order measured on Zen 3 (`gf2l-mul` bench, l = 255 .. 261): the
+    /// register folds beat the shift-and-XOR reduction by 1.4-1.8x, and
+    /// 256-bit products with the fold were level with or ahead of 128-bit
+    /// ones.
+    pub fn paths(&self) -> Vec<FieldPath> {
+        let mut v = vec![FieldPath::Generic];
+        if !self.red.two_folds() || self.red.w > 9 {
+            return v;
         }
+        v.push(FieldPath::Portable);
+        if !self.pclmul_kernel() {
+            return v;
+        }
+        v.push(FieldPath::Pclmul);
+        if self.red.w >= WIDE_MIN_WORDS && wide_supported() {
+            v.push(FieldPath::Vpclmul256);
+        }
+        if self.fold.is_some() {
+            v.push(FieldPath::PclmulFold);
+            if self.red.w >= WIDE_MIN_WORDS && wide_supported() {
+                v.push(FieldPath::Vpclmul256Fold);
+            }
+        }
+        v
+    }
+
+    /// Whether PCLMULQDQ products run for this backend.
+    fn pclmul_kernel(&self) -> bool {
+        #[cfg(target_arch = "x86_64")]
+        {
+            PclmulKernel::new(self.backend).is_some()
+        }
+        #[cfg(not(target_arch = "x86_64"))]
+        {
+            false
+        }
+    }
+
+    /// The same field on another product path.
+    pub fn with_path(mut self, path: FieldPath) -> Result<Field, FieldError> {
+        if !self.paths().contains(&path) {
+            return Err(FieldError::PathUnavailable(path.name()));
+        }
+        self.path = path;
+        self.mul_fn = select_mul(&self);
+        Ok(self)
+    }
+
+    /// The product path in use.
+    pub fn path(&self) -> FieldPath {
+        self.path
+    }
+
+    /// Name of the product path in use ([`FieldPath::name`]).
+    pub fn path_name(&self) -> &'static str {
+        self.path.name()
     }
 
     /// l, the number of bits of an element.
@@ -335,14 +421,9 @@ impl Field {
         &self.red
     }
 
-    /// Whether the fixed-width fast path applies and PCLMULQDQ is in use.
-    pub(crate) fn fast_flags(&self) -> (bool, bool) {
-        (self.fast, self.pclmul)
-    }
-
-    /// Whether the 256-bit VPCLMULQDQ path is in use.
-    pub(crate) fn wide_flag(&self) -> bool {
-        self.wide
+    /// Constants of the register fold, where it applies.
+    pub(crate) fn fold_consts(&self) -> Option<&FoldConsts> {
+        self.fold.as_ref()
     }
 
     /// `out = a * b` in GF(2^l). Operands must be reduced (no bits at or
@@ -350,16 +431,15 @@ impl Field {
     ///
     /// # Panics
     /// If a slice does not hold exactly [`Field::words`] words.
+    #[inline]
     pub fn mul(&self, a: &[u64], b: &[u64], out: &mut [u64]) {
         let w = self.red.w;
         crate::extract::check_len("field element a (words)", w, a.len());
         crate::extract::check_len("field element b (words)", w, b.len());
         crate::extract::check_len("field element out (words)", w, out.len());
-        if self.fast {
-            dispatch_width!(w, mul_fast, (self, a, b, out), self.mul_generic(a, b, out))
-        } else {
-            self.mul_generic(a, b, out)
-        }
+        // SAFETY: the lengths are checked above, and `mul_fn` was chosen by
+        // `select_mul` for a path that `paths` found runs on this CPU.
+        unsafe { (self.mul_fn)(self, a, b, out) }
     }
 
     /// `out = a * b` by the generic path ([`clmul_words`] and a word-level
@@ -581,8 +661,8 @@ macro_rules! dispatch_width {
 pub(crate) use dispatch_width;
 
 /// Body of the fixed-width PCLMULQDQ product and reduction, pasted into each
-/// `target_feature` function that needs it (a call would not inline: see
-/// [`mul_fixed_pclmul`]). Every 64 x 64 product stays in a 128-bit register
+/// `target_feature` function that needs it (LLVM does not always inline a
+/// large `target_feature` function into its caller). Every 64 x 64 product stays in a 128-bit register
 /// and is XORed into the accumulator of its word offset; the words are taken
 /// out once at the end. Must be expanded inside `unsafe` code running with
 /// pclmulqdq and sse2 enabled.
@@ -717,61 +797,159 @@ macro_rules! vpclmul256_mul_body {
 #[cfg(target_arch = "x86_64")]
 pub(crate) use vpclmul256_mul_body;
 
-/// Fixed-width product and reduction with 256-bit VPCLMULQDQ.
-///
-/// # Safety
-/// The CPU must support pclmulqdq, avx2, vpclmulqdq and bmi2
-/// ([`wide_supported`]).
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "pclmulqdq,sse2,avx,avx2,vpclmulqdq,bmi2")]
-#[inline]
-pub(crate) unsafe fn mul_fixed_vpclmul256<const W: usize, const W2: usize>(
-    red: &Reducer,
-    a: &[u64; W],
-    b: &[u64; W],
-) -> [u64; W] {
-    vpclmul256_mul_body!(W, W2, red, a, b)
+/// The [`MulFn`] of a field's path and width.
+fn select_mul(field: &Field) -> MulFn {
+    macro_rules! pick {
+        ($w:expr, $f:ident $(, $extra:tt)?) => {
+            match $w {
+                1 => $f::<1, 2 $(, $extra)?> as MulFn,
+                2 => $f::<2, 4 $(, $extra)?>,
+                3 => $f::<3, 6 $(, $extra)?>,
+                4 => $f::<4, 8 $(, $extra)?>,
+                5 => $f::<5, 10 $(, $extra)?>,
+                6 => $f::<6, 12 $(, $extra)?>,
+                7 => $f::<7, 14 $(, $extra)?>,
+                8 => $f::<8, 16 $(, $extra)?>,
+                9 => $f::<9, 18 $(, $extra)?>,
+                _ => mul_generic_fn,
+            }
+        };
+    }
+    let w = field.red.w;
+    match field.path {
+        FieldPath::Generic => mul_generic_fn,
+        FieldPath::Portable => pick!(w, mul_portable_fn),
+        #[cfg(target_arch = "x86_64")]
+        FieldPath::Pclmul => pick!(w, mul_pclmul_fn),
+        #[cfg(target_arch = "x86_64")]
+        FieldPath::Vpclmul256 => pick!(w, mul_vpclmul256_fn),
+        #[cfg(target_arch = "x86_64")]
+        FieldPath::PclmulFold => {
+            if field.fold.expect("the fold path has constants").two_words() {
+                pick!(w, mul_fold_fn, true)
+            } else {
+                pick!(w, mul_fold_fn, false)
+            }
+        }
+        #[cfg(target_arch = "x86_64")]
+        FieldPath::Vpclmul256Fold => {
+            if field.fold.expect("the fold path has constants").two_words() {
+                pick!(w, mul_fold_ymm_fn, true)
+            } else {
+                pick!(w, mul_fold_ymm_fn, false)
+            }
+        }
+        #[cfg(not(target_arch = "x86_64"))]
+        _ => unreachable!("x86 paths are not offered on this target"),
+    }
 }
 
-/// Fixed-width product and reduction with PCLMULQDQ (one call per product;
-/// hot loops paste [`pclmul_mul_body`] instead, because LLVM does not always
-/// inline a large `target_feature` function into its caller).
+/// # Safety
+/// See [`MulFn`].
+unsafe fn mul_generic_fn(field: &Field, a: &[u64], b: &[u64], out: &mut [u64]) {
+    field.mul_generic(a, b, out)
+}
+
+/// # Safety
+/// See [`MulFn`]; pclmulqdq, avx2 and vpclmulqdq, and `TWO` must be the
+/// field's [`FoldConsts::two_words`].
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "pclmulqdq,sse2,avx,avx2,vpclmulqdq")]
+unsafe fn mul_fold_ymm_fn<const W: usize, const W2: usize, const TWO: bool>(
+    field: &Field,
+    a: &[u64],
+    b: &[u64],
+    out: &mut [u64],
+) {
+    // SAFETY: W words each (caller); the features are this function's.
+    unsafe {
+        let (a, b, out) = as_arrays::<W>(a, b, out);
+        let k = field.fold.as_ref().expect("the fold path has constants");
+        fold::mul_into_ymm::<W, TWO>(k, a, b, out);
+    }
+}
+
+/// The slices as arrays of `W` words.
 ///
 /// # Safety
-/// The CPU must support pclmulqdq and sse2 (see [`PclmulKernel::new`]).
+/// Each slice holds exactly W words.
+#[inline(always)]
+unsafe fn as_arrays<'a, const W: usize>(
+    a: &'a [u64],
+    b: &'a [u64],
+    out: &'a mut [u64],
+) -> (&'a [u64; W], &'a [u64; W], &'a mut [u64; W]) {
+    debug_assert!(a.len() == W && b.len() == W && out.len() == W);
+    // SAFETY: the caller guarantees W words behind each pointer.
+    unsafe {
+        (
+            &*(a.as_ptr() as *const [u64; W]),
+            &*(b.as_ptr() as *const [u64; W]),
+            &mut *(out.as_mut_ptr() as *mut [u64; W]),
+        )
+    }
+}
+
+/// # Safety
+/// See [`MulFn`].
+unsafe fn mul_portable_fn<const W: usize, const W2: usize>(
+    field: &Field,
+    a: &[u64],
+    b: &[u64],
+    out: &mut [u64],
+) {
+    // SAFETY: W words each (caller).
+    let (a, b, out) = unsafe { as_arrays::<W>(a, b, out) };
+    *out = mul_fixed::<W, W2, PortableKernel>(PortableKernel, &field.red, a, b);
+}
+
+/// # Safety
+/// See [`MulFn`]; pclmulqdq and sse2.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "pclmulqdq,sse2")]
-#[inline]
-pub(crate) unsafe fn mul_fixed_pclmul<const W: usize, const W2: usize>(
-    red: &Reducer,
-    a: &[u64; W],
-    b: &[u64; W],
-) -> [u64; W] {
-    pclmul_mul_body!(W, W2, red, a, b)
+unsafe fn mul_pclmul_fn<const W: usize, const W2: usize>(
+    field: &Field,
+    a: &[u64],
+    b: &[u64],
+    out: &mut [u64],
+) {
+    // SAFETY: W words each (caller).
+    let (a, b, out) = unsafe { as_arrays::<W>(a, b, out) };
+    *out = pclmul_mul_body!(W, W2, &field.red, a, b);
 }
 
-fn mul_fast<const W: usize, const W2: usize>(field: &Field, a: &[u64], b: &[u64], out: &mut [u64]) {
-    let a: &[u64; W] = a.try_into().expect("length checked");
-    let b: &[u64; W] = b.try_into().expect("length checked");
-    #[cfg(target_arch = "x86_64")]
-    if field.wide {
-        // SAFETY: `field.wide` is set only when `wide_supported` found
-        // pclmulqdq, avx2, vpclmulqdq and bmi2.
-        let r = unsafe { mul_fixed_vpclmul256::<W, W2>(&field.red, a, b) };
-        out.copy_from_slice(&r);
-        return;
+/// # Safety
+/// See [`MulFn`]; pclmulqdq, avx2, vpclmulqdq and bmi2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "pclmulqdq,sse2,avx,avx2,vpclmulqdq,bmi2")]
+unsafe fn mul_vpclmul256_fn<const W: usize, const W2: usize>(
+    field: &Field,
+    a: &[u64],
+    b: &[u64],
+    out: &mut [u64],
+) {
+    // SAFETY: W words each (caller).
+    let (a, b, out) = unsafe { as_arrays::<W>(a, b, out) };
+    *out = vpclmul256_mul_body!(W, W2, &field.red, a, b);
+}
+
+/// # Safety
+/// See [`MulFn`]; pclmulqdq and sse2, and `TWO` must be the field's
+/// [`FoldConsts::two_words`].
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "pclmulqdq,sse2")]
+unsafe fn mul_fold_fn<const W: usize, const W2: usize, const TWO: bool>(
+    field: &Field,
+    a: &[u64],
+    b: &[u64],
+    out: &mut [u64],
+) {
+    // SAFETY: W words each (caller); the features are this function's.
+    unsafe {
+        let (a, b, out) = as_arrays::<W>(a, b, out);
+        let k = field.fold.as_ref().expect("the fold path has constants");
+        fold::mul_into::<W, TWO>(k, a, b, out);
     }
-    #[cfg(target_arch = "x86_64")]
-    if field.pclmul {
-        // SAFETY: `field.pclmul` is set only when `PclmulKernel::new`
-        // returned Some, after `Backend::is_supported` checked pclmulqdq and
-        // sse2.
-        let r = unsafe { mul_fixed_pclmul::<W, W2>(&field.red, a, b) };
-        out.copy_from_slice(&r);
-        return;
-    }
-    let r = mul_fixed::<W, W2, PortableKernel>(PortableKernel, &field.red, a, b);
-    out.copy_from_slice(&r);
 }
 
 #[cfg(test)]
@@ -929,7 +1107,9 @@ mod tests {
         for l in sizes {
             let fields = Backend::all_supported().into_iter().flat_map(|be| {
                 let f = Field::with_backend(l, be).unwrap();
-                [f.clone().with_wide_simd(false), f.with_wide_simd(true)]
+                f.paths()
+                    .into_iter()
+                    .map(move |p| f.clone().with_path(p).unwrap())
             });
             for f in fields {
                 let be = (f.backend(), f.path_name());
@@ -943,6 +1123,40 @@ mod tests {
                     assert_eq!(out, want, "l = {l}, backend {be:?}");
                     f.mul_generic(&a, &b, &mut out);
                     assert_eq!(out, want, "generic path, l = {l}, backend {be:?}");
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn every_path_agrees_with_generic_for_every_fixed_width_size() {
+        // Each l of the fixed-width range, every path of this CPU, on random
+        // operands and on all-ones operands (the largest product degrees,
+        // where the folds carry furthest); `mul_generic` is checked against
+        // the bitwise oracle above.
+        let mut rng = Rng(0x0f0f_1234_dead_beef);
+        for l in 1usize..=576 {
+            let ones = {
+                let mut w = vec![u64::MAX; l.div_ceil(64)];
+                if !l.is_multiple_of(64) {
+                    *w.last_mut().unwrap() = (1u64 << (l % 64)) - 1;
+                }
+                w
+            };
+            let mut cases = vec![(ones.clone(), ones.clone())];
+            for _ in 0..3 {
+                cases.push((rng.element(l), rng.element(l)));
+                cases.push((ones.clone(), rng.element(l)));
+            }
+            let base = Field::new(l).unwrap();
+            for (a, b) in &cases {
+                let mut want = vec![0u64; base.words()];
+                base.mul_generic(a, b, &mut want);
+                for path in base.paths() {
+                    let f = base.clone().with_path(path).unwrap();
+                    let mut got = vec![0u64; f.words()];
+                    f.mul(a, b, &mut got);
+                    assert_eq!(got, want, "l = {l}, path {}", path.name());
                 }
             }
         }

@@ -26,7 +26,11 @@ use super::onebit::{parity_and, parse_blocks};
 use super::{OneBit, Trevisan};
 use crate::bits::Bits;
 use crate::extract::{NoProgress, Progress, SeededExtractor};
-use crate::gf2::field::{dispatch_width, mul_fixed, Field, Kernel, PortableKernel, Reducer};
+#[cfg(target_arch = "x86_64")]
+use crate::gf2::field::fold::{self, FoldConsts};
+use crate::gf2::field::{
+    dispatch_width, mul_fixed, Field, FieldPath, Kernel, PortableKernel, Reducer,
+};
 #[cfg(target_arch = "x86_64")]
 use crate::gf2::field::{pclmul_mul_body, vpclmul256_mul_body};
 #[cfg(target_arch = "x86_64")]
@@ -205,7 +209,7 @@ fn ph_task(
 /// acc[g] = p_x(alphas[g]) for every g (w words each).
 pub(crate) fn horner(field: &Field, blocks: &[u64], alphas: &[u64], acc: &mut [u64]) {
     let w = field.words();
-    if field.fast_flags().0 {
+    if field.path() != FieldPath::Generic {
         dispatch_width!(
             w,
             horner_fixed,
@@ -244,24 +248,54 @@ fn horner_fixed<const W: usize, const W2: usize>(
     let (v, _) = acc.as_chunks_mut::<W>();
     let red = field.reducer();
     #[cfg(target_arch = "x86_64")]
-    if field.fast_flags().1 {
-        if field.backend() == Backend::Vpclmul && std::is_x86_feature_detected!("avx512vl") {
-            // SAFETY: the Vpclmul backend is in use only when
-            // `Backend::is_supported` found pclmulqdq, vpclmulqdq and
-            // avx512f; avx512vl is checked just above.
-            unsafe { horner_pclmul_evex::<W, W2>(red, b, a, v) };
+    match field.path() {
+        FieldPath::PclmulFold => {
+            let k = field.fold_consts().expect("the fold path has constants");
+            // SAFETY: the path is offered only when `PclmulKernel::new`
+            // found pclmulqdq and sse2; `TWO` is the constants' own.
+            unsafe {
+                if k.two_words() {
+                    horner_fold::<W, true>(k, b, a, v)
+                } else {
+                    horner_fold::<W, false>(k, b, a, v)
+                }
+            }
             return;
         }
-        if field.wide_flag() {
-            // SAFETY: the wide flag is set only when run-time detection found
-            // pclmulqdq, avx2, vpclmulqdq and bmi2 (`Field::wide_simd`).
+        FieldPath::Vpclmul256Fold => {
+            let k = field.fold_consts().expect("the fold path has constants");
+            // SAFETY: the path is offered only when run-time detection found
+            // pclmulqdq, avx2 and vpclmulqdq; `TWO` is the constants' own.
+            unsafe {
+                if k.two_words() {
+                    horner_fold_ymm::<W, true>(k, b, a, v)
+                } else {
+                    horner_fold_ymm::<W, false>(k, b, a, v)
+                }
+            }
+            return;
+        }
+        FieldPath::Vpclmul256 => {
+            // SAFETY: the path is offered only when run-time detection
+            // found pclmulqdq, avx2, vpclmulqdq and bmi2.
             unsafe { horner_vpclmul256::<W, W2, WIDE_CHAINS>(red, b, a, v) };
             return;
         }
-        // SAFETY: the flag is set only when `PclmulKernel::new` returned
-        // Some, after `Backend::is_supported` checked pclmulqdq and sse2.
-        unsafe { horner_pclmul::<W, W2>(red, b, a, v) };
-        return;
+        FieldPath::Pclmul => {
+            if field.backend() == Backend::Vpclmul && std::is_x86_feature_detected!("avx512vl") {
+                // SAFETY: the Vpclmul backend is in use only when
+                // `Backend::is_supported` found pclmulqdq, vpclmulqdq and
+                // avx512f; avx512vl is checked just above.
+                unsafe { horner_pclmul_evex::<W, W2>(red, b, a, v) };
+                return;
+            }
+            // SAFETY: the path is offered only when `PclmulKernel::new`
+            // returned Some, after `Backend::is_supported` checked
+            // pclmulqdq and sse2.
+            unsafe { horner_pclmul::<W, W2>(red, b, a, v) };
+            return;
+        }
+        _ => {}
     }
     horner_many::<W, W2, PortableKernel>(PortableKernel, red, b, a, v)
 }
@@ -286,6 +320,52 @@ unsafe fn horner_pclmul<const W: usize, const W2: usize>(
             r[j] ^= b[j];
         }
         r
+    })
+}
+
+/// [`horner_many`] with the register fold (`field_fold.rs`): each step
+/// loads v, multiplies and reduces in vector registers, adds the block and
+/// stores v.
+///
+/// # Safety
+/// The CPU must support pclmulqdq and sse2; `TWO` must be
+/// `k.two_words()`.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "pclmulqdq,sse2")]
+unsafe fn horner_fold<const W: usize, const TWO: bool>(
+    k: &FoldConsts,
+    blocks: &[[u64; W]],
+    alphas: &[[u64; W]],
+    v: &mut [[u64; W]],
+) {
+    let regs = fold::FoldRegs::new::<W>(k);
+    horner_body!(W, blocks, alphas, v, |x, a, b| {
+        let r = fold::mul_regs::<W, TWO>(&fold::load::<W>(x), &fold::load::<W>(a), &regs);
+        let mut out = [0u64; W];
+        fold::store_into::<W>(&fold::xor::<W>(&r, &fold::load::<W>(b)), &mut out);
+        out
+    })
+}
+
+/// [`horner_fold`] with the products of [`fold::product_ymm`].
+///
+/// # Safety
+/// The CPU must support pclmulqdq, avx2 and vpclmulqdq; `TWO` must be
+/// `k.two_words()`.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "pclmulqdq,sse2,avx,avx2,vpclmulqdq")]
+unsafe fn horner_fold_ymm<const W: usize, const TWO: bool>(
+    k: &FoldConsts,
+    blocks: &[[u64; W]],
+    alphas: &[[u64; W]],
+    v: &mut [[u64; W]],
+) {
+    let regs = fold::FoldRegs::new::<W>(k);
+    horner_body!(W, blocks, alphas, v, |x, a, b| {
+        let r = fold::reduce::<W, TWO>(&fold::product_ymm::<W>(x, a), &regs);
+        let mut out = [0u64; W];
+        fold::store_into::<W>(&fold::xor::<W>(&r, &fold::load::<W>(b)), &mut out);
+        out
     })
 }
 

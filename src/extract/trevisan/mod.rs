@@ -33,7 +33,7 @@ use crate::bits::Bits;
 use crate::extract::{
     check_len, Extractor, NoProgress, Progress, ScratchPool, SeededExtractor, Unprepared,
 };
-use crate::gf2::field::{Field, FieldError, MAX_FIELD_BITS};
+use crate::gf2::field::{Field, FieldError, FieldPath, MAX_FIELD_BITS};
 use crate::gf2::Backend;
 use std::fmt;
 
@@ -325,13 +325,13 @@ impl Trevisan {
         self.field.as_ref()
     }
 
-    /// The same plan with the 256-bit VPCLMULQDQ field path switched off or
-    /// on ([`Field::with_wide_simd`]); for tests and benches that compare
-    /// the paths.
+    /// The same plan with its field on another product path
+    /// ([`Field::with_path`]); for tests and benches that compare the
+    /// paths. IP plans (no field) are returned unchanged.
     #[doc(hidden)]
-    pub fn with_wide_simd(mut self, on: bool) -> Trevisan {
-        self.field = self.field.map(|f| f.with_wide_simd(on));
-        self
+    pub fn with_field_path(mut self, path: FieldPath) -> Result<Trevisan, FieldError> {
+        self.field = self.field.map(|f| f.with_path(path)).transpose()?;
+        Ok(self)
     }
 }
 
