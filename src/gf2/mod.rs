@@ -13,6 +13,7 @@
 //!   rounding bound.
 //! * [`reference`]: slow oracles for the tests.
 
+pub mod afft;
 pub mod clmul;
 pub mod fft;
 pub mod karatsuba;
