@@ -285,7 +285,10 @@ pub fn build_extractor(case: &Case, engine: Engine) -> Result<Box<dyn Extractor>
             let spec = trevisan_spec(case)?;
             let be = match engine {
                 Engine::Clmul(b) => b,
-                Engine::Fft => return Err("trevisan has no FFT engine".into()),
+                Engine::Auto => crate::gf2::Backend::detect(),
+                Engine::Fft | Engine::Additive(_) => {
+                    return Err("trevisan has no FFT engine".into())
+                }
             };
             Ok(Box::new(
                 Trevisan::with_backend(&spec, be).map_err(|e| e.to_string())?,
@@ -334,7 +337,10 @@ pub fn engines_for(case: &Case) -> Vec<Engine> {
     Engine::all_supported()
         .into_iter()
         .filter(|e| !(e.name() == "portable" && case.input_bits > 1 << 18))
-        .filter(|e| !(case.extractor == "trevisan" && *e == Engine::Fft))
+        .filter(|e| !(e.name() == "additive-fft-portable" && case.input_bits > 1 << 22))
+        .filter(|e| {
+            !(case.extractor == "trevisan" && matches!(e, Engine::Fft | Engine::Additive(_)))
+        })
         .filter(|e| {
             *e != Engine::Fft
                 || crate::gf2::fft::FftWindow::accepts(

@@ -97,7 +97,7 @@ pub struct Common {
     pub block_bits: Option<usize>,
     #[command(flatten)]
     pub files: FileFormatArgs,
-    /// Product engine: auto, portable, pclmul, vpclmul256, vpclmul or fft (all give the same bits)
+    /// Product engine: auto (by size), portable, pclmul, vpclmul256, vpclmul, fft, additive-fft or additive-fft-BACKEND (all give the same bits)
     #[arg(long, default_value = "auto", value_parser = parse_engine)]
     pub engine: Engine,
     /// Print a JSON report on standard output (or standard error when the
@@ -178,7 +178,7 @@ pub struct VerifyArgs {
 
 fn parse_engine(s: &str) -> Result<Engine, String> {
     Engine::from_name(s).ok_or_else(|| {
-        format!("unknown engine {s:?}: use auto, portable, pclmul, vpclmul256, vpclmul or fft")
+        format!("unknown engine {s:?}: use auto, portable, pclmul, vpclmul256, vpclmul, fft, additive-fft or additive-fft-portable (-pclmul, -vpclmul256, -vpclmul)")
     })
 }
 
@@ -298,7 +298,8 @@ pub fn trevisan_plan(
     };
     let be = match engine {
         Engine::Clmul(b) => b,
-        Engine::Fft => bail!("--engine fft applies to the Toeplitz families only; Trevisan runs on the carry-less backends"),
+        Engine::Auto => sluice::gf2::Backend::detect(),
+        Engine::Fft | Engine::Additive(_) => bail!("--engine {engine} applies to the Toeplitz families only; Trevisan runs on the carry-less backends"),
     };
     Ok(Box::new(Trevisan::with_backend(&spec, be)?))
 }

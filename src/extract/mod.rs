@@ -22,64 +22,10 @@ pub use toeplitz::Toeplitz;
 pub use two_source::{TwoSource, TwoSourceError};
 
 use crate::bits::Bits;
-use crate::gf2::Backend;
-use std::fmt;
 use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::Mutex;
 
-/// How a hashing extractor computes its product.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
-pub enum Engine {
-    /// Word-level Karatsuba middle product on a carry-less backend.
-    Clmul(Backend),
-    /// Floating-point FFT convolution (sizes covered by its rounding bound).
-    Fft,
-}
-
-impl Engine {
-    /// The fastest carry-less backend of this CPU.
-    pub fn detect() -> Engine {
-        Engine::Clmul(Backend::detect())
-    }
-
-    /// Every engine this CPU can run, slowest first.
-    pub fn all_supported() -> Vec<Engine> {
-        let mut v: Vec<Engine> = Backend::all_supported()
-            .into_iter()
-            .map(Engine::Clmul)
-            .collect();
-        v.push(Engine::Fft);
-        v
-    }
-
-    /// Name as used on the command line (`portable`, `pclmul`,
-    /// `vpclmul256`, `vpclmul`, `fft`).
-    pub fn name(self) -> &'static str {
-        match self {
-            Engine::Clmul(b) => b.name(),
-            Engine::Fft => "fft",
-        }
-    }
-
-    /// Parses a name given by [`name`](Self::name), or `auto`.
-    pub fn from_name(s: &str) -> Option<Engine> {
-        Some(match s {
-            "auto" => Engine::detect(),
-            "portable" => Engine::Clmul(Backend::Portable),
-            "pclmul" => Engine::Clmul(Backend::Pclmul),
-            "vpclmul" => Engine::Clmul(Backend::Vpclmul),
-            "vpclmul256" => Engine::Clmul(Backend::Vpclmul256),
-            "fft" => Engine::Fft,
-            _ => return None,
-        })
-    }
-}
-
-impl fmt::Display for Engine {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(self.name())
-    }
-}
+pub use crate::gf2::window::{Engine, Thresholds};
 
 /// Why an extractor cannot be planned.
 #[derive(Debug, thiserror::Error, PartialEq, Eq)]
@@ -113,6 +59,25 @@ pub enum Error {
         /// Output bits.
         m: usize,
     },
+    /// Too large for one block of the additive FFT.
+    #[error("n = {n}, m = {m} is too large for one block (more than 2^32 transform points)")]
+    TooLarge {
+        /// Input bits.
+        n: usize,
+        /// Output bits.
+        m: usize,
+    },
+}
+
+impl From<crate::gf2::window::WindowError> for Error {
+    fn from(e: crate::gf2::window::WindowError) -> Error {
+        use crate::gf2::window::WindowError as W;
+        match e {
+            W::Unsupported(engine) => Error::Unsupported(engine),
+            W::FftTooLarge { n, m } => Error::FftTooLarge { n, m },
+            W::TooLarge { n, m } => Error::TooLarge { n, m },
+        }
+    }
 }
 
 /// A seeded extractor `Ext: {0,1}^n x {0,1}^d -> {0,1}^m`, planned for fixed

@@ -7,44 +7,28 @@
 //! classical Toeplitz hash of Mansour, Nisan and Tiwari, and of Krawczyk,
 //! "LFSR-based hashing and authentication", CRYPTO '94).
 //!
-//! Engines: the word-level middle product ([`crate::gf2::middle`]) on any
-//! carry-less backend, or the FFT convolution ([`crate::gf2::fft`]). All give
-//! the same bits; the tests compare them with [`super::reference::toeplitz`].
+//! Engines ([`crate::gf2::window`]): the word-level Karatsuba middle product
+//! on any carry-less backend, the floating-point FFT convolution, or the
+//! additive FFT over GF(2^64); `Engine::Auto` picks by size. All give the
+//! same bits; the tests compare them with [`super::reference::toeplitz`].
 
 use super::{check_len, Engine, Error, Extractor, ScratchPool, SeededExtractor};
 use crate::bits::Bits;
-use crate::gf2::fft::{FftScratch, FftSeed, FftWindow};
-use crate::gf2::middle::{PreparedSeed, ToeplitzWindow};
+use crate::gf2::window::{Window, WindowScratch, WindowSeed};
 
 /// A Toeplitz hashing plan for fixed n, m and engine.
 pub struct Toeplitz {
-    inner: Inner,
-    engine: Engine,
-    pool: ScratchPool<Scratch>,
-}
-
-enum Inner {
-    Clmul(ToeplitzWindow),
-    Fft(FftWindow),
-}
-
-/// Per-call working space (pooled).
-enum Scratch {
-    Clmul { words: Vec<u64>, seed: PreparedSeed },
-    Fft { fft: FftScratch, seed: FftSeed },
-}
-
-/// A seed prepared for one plan.
-enum Prepared {
-    Clmul(PreparedSeed),
-    Fft(FftSeed),
+    n: usize,
+    m: usize,
+    window: Window,
+    pool: ScratchPool<(WindowScratch, WindowSeed)>,
 }
 
 impl Toeplitz {
-    /// Plans Toeplitz hashing of n bits to m bits on the fastest engine of
-    /// this CPU.
+    /// Plans Toeplitz hashing of n bits to m bits on the engine chosen by
+    /// size on this CPU.
     pub fn new(n: usize, m: usize) -> Result<Self, Error> {
-        Self::with_engine(n, m, Engine::detect())
+        Self::with_engine(n, m, Engine::Auto)
     }
 
     /// Plans with a given engine.
@@ -58,78 +42,41 @@ impl Toeplitz {
     /// m > n, so not public.
     pub(crate) fn any_shape(n: usize, m: usize, engine: Engine) -> Result<Self, Error> {
         check_sizes("toeplitz", n, m, usize::MAX)?;
-        let inner = match engine {
-            Engine::Clmul(be) => {
-                if !be.is_supported() {
-                    return Err(Error::Unsupported(engine));
-                }
-                Inner::Clmul(ToeplitzWindow::new(n, m, be))
-            }
-            Engine::Fft => Inner::Fft(FftWindow::new(n, m).ok_or(Error::FftTooLarge { n, m })?),
-        };
         Ok(Toeplitz {
-            inner,
-            engine,
+            n,
+            m,
+            window: Window::new(n, m, engine)?,
             pool: ScratchPool::new(),
         })
     }
 
     /// The engine this plan runs on.
     pub fn engine(&self) -> Engine {
-        self.engine
+        self.window.engine()
     }
 
-    fn make_scratch(&self) -> Scratch {
-        match &self.inner {
-            Inner::Clmul(w) => Scratch::Clmul {
-                words: vec![0; w.scratch_len()],
-                seed: PreparedSeed::default(),
-            },
-            Inner::Fft(f) => Scratch::Fft {
-                fft: f.make_scratch(),
-                seed: FftSeed::default(),
-            },
-        }
-    }
-
-    fn prepare(&self, seed: &Bits) -> Prepared {
+    fn prepare(&self, seed: &Bits) -> WindowSeed {
         check_len("toeplitz seed", self.seed_bits(), seed.len());
-        match &self.inner {
-            Inner::Clmul(w) => Prepared::Clmul(w.prepare(seed.words())),
-            Inner::Fft(f) => Prepared::Fft(f.prepare(seed.words())),
-        }
+        self.window.prepare(seed.words())
     }
 
-    /// Hashes input words (n bits) with a prepared seed into output words.
-    fn run(&self, seed: Option<&Prepared>, raw_seed: Option<&Bits>, input: &Bits, out: &mut Bits) {
-        check_len("toeplitz input", self.input_bits(), input.len());
-        check_len("toeplitz output", self.output_bits(), out.len());
+    /// Hashes one block with a prepared seed, or with a raw one prepared in
+    /// the pooled scratch.
+    fn run(&self, seed: Option<&WindowSeed>, raw_seed: Option<&Bits>, input: &Bits, out: &mut Bits) {
+        check_len("toeplitz input", self.n, input.len());
+        check_len("toeplitz output", self.m, out.len());
         self.pool.with(
-            || self.make_scratch(),
-            |sc| match (&self.inner, sc) {
-                (Inner::Clmul(w), Scratch::Clmul { words, seed: own }) => {
-                    let ps = match (seed, raw_seed) {
-                        (Some(Prepared::Clmul(p)), _) => p,
-                        (_, Some(raw)) => {
-                            w.prepare_into(raw.words(), own);
-                            &*own
-                        }
-                        _ => unreachable!("seed kind matches the plan"),
-                    };
-                    w.compute(ps, input.words(), out.words_mut(), words);
-                }
-                (Inner::Fft(f), Scratch::Fft { fft, seed: own }) => {
-                    let ps = match (seed, raw_seed) {
-                        (Some(Prepared::Fft(p)), _) => p,
-                        (_, Some(raw)) => {
-                            f.prepare_into(raw.words(), own, fft);
-                            &*own
-                        }
-                        _ => unreachable!("seed kind matches the plan"),
-                    };
-                    f.compute(ps, input.words(), out.words_mut(), fft);
-                }
-                _ => unreachable!("scratch kind matches the plan"),
+            || (self.window.make_scratch(), WindowSeed::default()),
+            |(scratch, own)| {
+                let ps = match (seed, raw_seed) {
+                    (Some(p), _) => p,
+                    (None, Some(raw)) => {
+                        self.window.prepare_into(raw.words(), own, scratch);
+                        &*own
+                    }
+                    (None, None) => unreachable!("a seed is given"),
+                };
+                self.window.compute(ps, input.words(), out.words_mut(), scratch);
             },
         )
     }
@@ -140,19 +87,13 @@ impl Extractor for Toeplitz {
         "toeplitz"
     }
     fn input_bits(&self) -> usize {
-        match &self.inner {
-            Inner::Clmul(w) => w.input_bits(),
-            Inner::Fft(f) => f.input_bits(),
-        }
+        self.n
     }
     fn output_bits(&self) -> usize {
-        match &self.inner {
-            Inner::Clmul(w) => w.output_bits(),
-            Inner::Fft(f) => f.output_bits(),
-        }
+        self.m
     }
     fn seed_bits(&self) -> usize {
-        self.input_bits() + self.output_bits() - 1
+        self.n + self.m - 1
     }
     fn extract(&self, input: &Bits, seed: &Bits, out: &mut Bits) {
         check_len("toeplitz seed", self.seed_bits(), seed.len());
@@ -168,7 +109,7 @@ impl Extractor for Toeplitz {
 
 struct Seeded<'a> {
     plan: &'a Toeplitz,
-    seed: Prepared,
+    seed: WindowSeed,
 }
 
 impl SeededExtractor for Seeded<'_> {

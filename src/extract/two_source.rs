@@ -42,8 +42,7 @@
 
 use super::{check_len, Engine, Error, Extractor, ScratchPool, SeededExtractor};
 use crate::bits::{words_for, Bits};
-use crate::gf2::fft::{FftScratch, FftSeed, FftWindow};
-use crate::gf2::middle::{PreparedSeed, ToeplitzWindow};
+use crate::gf2::window::{Window, WindowScratch, WindowSeed};
 use crate::plan::two_source::{largest_n, valid_n};
 
 /// Why a two-source plan cannot be made.
@@ -73,14 +72,8 @@ pub const NAME: &str = "two-source";
 pub struct TwoSource {
     n: usize,
     m: usize,
-    inner: Inner,
-    engine: Engine,
+    window: Window,
     pool: ScratchPool<Scratch>,
-}
-
-enum Inner {
-    Clmul(ToeplitzWindow),
-    Fft(FftWindow),
 }
 
 /// Per-call working space (pooled): reversed x, extended y, the window's
@@ -88,17 +81,8 @@ enum Inner {
 struct Scratch {
     xrev: Vec<u64>,
     ext: Vec<u64>,
-    engine: EngineScratch,
-}
-
-enum EngineScratch {
-    Clmul { words: Vec<u64>, seed: PreparedSeed },
-    Fft { fft: FftScratch, seed: FftSeed },
-}
-
-enum Prepared {
-    Clmul(PreparedSeed),
-    Fft(FftSeed),
+    window: WindowScratch,
+    seed: WindowSeed,
 }
 
 impl TwoSource {
@@ -125,57 +109,36 @@ impl TwoSource {
             }
             .into());
         }
-        let inner = match engine {
-            Engine::Clmul(be) => {
-                if !be.is_supported() {
-                    return Err(Error::Unsupported(engine).into());
-                }
-                Inner::Clmul(ToeplitzWindow::new(n, m, be))
-            }
-            Engine::Fft => Inner::Fft(FftWindow::new(n, m).ok_or(Error::FftTooLarge { n, m })?),
-        };
         Ok(TwoSource {
             n,
             m,
-            inner,
-            engine,
+            window: Window::new(n, m, engine).map_err(Error::from)?,
             pool: ScratchPool::new(),
         })
     }
 
     /// The engine this plan runs on.
     pub fn engine(&self) -> Engine {
-        self.engine
+        self.window.engine()
     }
 
     fn make_scratch(&self) -> Scratch {
         Scratch {
             xrev: vec![0; words_for(self.n)],
             ext: vec![0; words_for(self.n + self.m - 1)],
-            engine: match &self.inner {
-                Inner::Clmul(w) => EngineScratch::Clmul {
-                    words: vec![0; w.scratch_len()],
-                    seed: PreparedSeed::default(),
-                },
-                Inner::Fft(f) => EngineScratch::Fft {
-                    fft: f.make_scratch(),
-                    seed: FftSeed::default(),
-                },
-            },
+            window: self.window.make_scratch(),
+            seed: WindowSeed::default(),
         }
     }
 
-    fn prepare(&self, y: &Bits) -> Prepared {
+    fn prepare(&self, y: &Bits) -> WindowSeed {
         check_len("two-source second source", self.n, y.len());
         let mut ext = vec![0; words_for(self.n + self.m - 1)];
         cyclic_extend(y.words(), self.n, self.n + self.m - 1, &mut ext);
-        match &self.inner {
-            Inner::Clmul(w) => Prepared::Clmul(w.prepare(&ext)),
-            Inner::Fft(f) => Prepared::Fft(f.prepare(&ext)),
-        }
+        self.window.prepare(&ext)
     }
 
-    fn run(&self, bound: Option<&Prepared>, y: Option<&Bits>, x: &Bits, out: &mut Bits) {
+    fn run(&self, bound: Option<&WindowSeed>, y: Option<&Bits>, x: &Bits, out: &mut Bits) {
         check_len("two-source first source", self.n, x.len());
         check_len("two-source output", self.m, out.len());
         let (n, d) = (self.n, self.n + self.m - 1);
@@ -183,34 +146,17 @@ impl TwoSource {
             || self.make_scratch(),
             |sc| {
                 reverse_bits_into(x.words(), n, &mut sc.xrev);
-                if let Some(y) = y {
-                    cyclic_extend(y.words(), n, d, &mut sc.ext);
-                }
-                match (&self.inner, &mut sc.engine) {
-                    (Inner::Clmul(w), EngineScratch::Clmul { words, seed }) => {
-                        let ps = match bound {
-                            Some(Prepared::Clmul(p)) => p,
-                            Some(_) => unreachable!("prepared kind matches the plan"),
-                            None => {
-                                w.prepare_into(&sc.ext, seed);
-                                &*seed
-                            }
-                        };
-                        w.compute(ps, &sc.xrev, out.words_mut(), words);
+                let ps = match bound {
+                    Some(p) => p,
+                    None => {
+                        let y = y.expect("a second source is given");
+                        cyclic_extend(y.words(), n, d, &mut sc.ext);
+                        self.window.prepare_into(&sc.ext, &mut sc.seed, &mut sc.window);
+                        &sc.seed
                     }
-                    (Inner::Fft(f), EngineScratch::Fft { fft, seed }) => {
-                        let ps = match bound {
-                            Some(Prepared::Fft(p)) => p,
-                            Some(_) => unreachable!("prepared kind matches the plan"),
-                            None => {
-                                f.prepare_into(&sc.ext, seed, fft);
-                                &*seed
-                            }
-                        };
-                        f.compute(ps, &sc.xrev, out.words_mut(), fft);
-                    }
-                    _ => unreachable!("scratch kind matches the plan"),
-                }
+                };
+                self.window
+                    .compute(ps, &sc.xrev, out.words_mut(), &mut sc.window);
             },
         )
     }
@@ -248,7 +194,7 @@ impl Extractor for TwoSource {
 
 struct Seeded<'a> {
     plan: &'a TwoSource,
-    y: Prepared,
+    y: WindowSeed,
 }
 
 impl SeededExtractor for Seeded<'_> {

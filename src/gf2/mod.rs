@@ -19,6 +19,7 @@ pub mod fft;
 pub mod karatsuba;
 pub mod middle;
 pub mod reference;
+pub mod window;
 
 pub use clmul::Backend;
 pub mod field;

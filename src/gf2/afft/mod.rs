@@ -133,6 +133,14 @@ impl AfftWindow {
         }
     }
 
+    /// Whether one block of an n-bit input and m output bits fits in the
+    /// transform (at most `2^32` points).
+    pub fn fits(n: usize, m: usize) -> bool {
+        let nx = n.div_ceil(CHUNK) as u64;
+        let mo = m.div_ceil(CHUNK) as u64 + 1;
+        nx + mo - 1 <= 1 << 32
+    }
+
     /// Input bits n.
     pub fn input_bits(&self) -> usize {
         self.n
@@ -193,10 +201,9 @@ impl AfftWindow {
         f.resize(self.len, 0);
         let na = self.nx + self.mo - 1;
         shifted_chunks(&seed[..words_for(bits)], bits, self.shift, &mut f[..na]);
-        with_kern(self.backend, |k| {
-            convert::convert(k, f, 1, Conv::ToMonoT);
-            transform::ifft_t(k, f);
-        });
+        let k = AnyKern::new(self.backend);
+        convert::convert(k, f, 1, Conv::ToMonoT);
+        transform::ifft_t(k, f);
     }
 
     /// Computes the window for input words `x` (n bits) into `out`
@@ -206,30 +213,57 @@ impl AfftWindow {
     /// On wrong lengths, too little scratch or a seed prepared for another
     /// plan.
     pub fn compute(&self, seed: &AfftSeed, x: &[u64], out: &mut [u64], scratch: &mut [u64]) {
-        assert_eq!(x.len(), words_for(self.n), "input words");
-        assert_eq!(out.len(), words_for(self.m), "output words");
         assert!(scratch.len() >= self.len, "scratch too small");
         assert_eq!(seed.spec.len(), self.len, "seed prepared for another plan");
         let f = &mut scratch[..self.len];
+        self.transform_input(x, f);
+        let k = AnyKern::new(self.backend);
+        pointwise(k, f, &seed.spec, None);
+        self.finish(f, out);
+    }
+
+    /// The input's transform `FFT(C Xrev)` into `f` (the transform length).
+    /// Linear in the input, so the transforms of pieces of one input can be
+    /// combined (see [`accumulate`](Self::accumulate)).
+    ///
+    /// # Panics
+    /// On wrong lengths.
+    pub fn transform_input(&self, x: &[u64], f: &mut [u64]) {
+        assert_eq!(x.len(), words_for(self.n), "input words");
+        assert_eq!(f.len(), self.len, "transform length");
         let sup = self.nx.next_power_of_two();
         reversed_chunks(x, self.nx, &mut f[..sup]);
-        let mo = self.mo;
-        let sub = with_kern(self.backend, |k| {
-            convert::convert(k, &mut f[..sup], 1, Conv::ToNovel);
-            transform::fft(k, f, sup);
-            mul_par(k, f, &seed.spec);
-            let sub = transform::fft_t(k, f, mo);
-            convert::convert(k, &mut f[..sub], 1, Conv::ToNovelT);
-            sub
-        });
-        debug_assert!(sub >= mo);
-        decode(&f[..mo], self.m, out);
+        let k = AnyKern::new(self.backend);
+        convert::convert(k, &mut f[..sup], 1, Conv::ToNovel);
+        transform::fft(k, f, sup);
     }
-}
 
-/// Runs `body` with the kernel of `backend`.
-fn with_kern<R>(backend: Backend, body: impl FnOnce(AnyKern) -> R) -> R {
-    body(AnyKern::new(backend))
+    /// `acc ^= input . seed`: the transform-domain form of one Toeplitz
+    /// block, to be summed over blocks and finished once
+    /// ([`finish`](Self::finish)); `input` from
+    /// [`transform_input`](Self::transform_input).
+    ///
+    /// # Panics
+    /// On wrong lengths.
+    pub fn accumulate(&self, acc: &mut [u64], input: &[u64], seed: &AfftSeed) {
+        assert!(acc.len() == self.len && input.len() == self.len);
+        assert_eq!(seed.spec.len(), self.len, "seed prepared for another plan");
+        pointwise(AnyKern::new(self.backend), acc, &seed.spec, Some(input));
+    }
+
+    /// Turns a transform-domain product (consumed as scratch) into the m
+    /// output bits.
+    ///
+    /// # Panics
+    /// On wrong lengths.
+    pub fn finish(&self, f: &mut [u64], out: &mut [u64]) {
+        assert_eq!(f.len(), self.len, "transform length");
+        assert_eq!(out.len(), words_for(self.m), "output words");
+        let k = AnyKern::new(self.backend);
+        let sub = transform::fft_t(k, f, self.mo);
+        convert::convert(k, &mut f[..sub], 1, Conv::ToNovelT);
+        decode(&f[..self.mo], self.m, out);
+    }
 }
 
 /// The kernel chosen once per plan (a plain `match` per slice operation).
@@ -296,13 +330,21 @@ impl Kern for AnyKern {
     }
 }
 
-/// `acc ^= x * y` pointwise, split between threads.
-fn mul_par<K: Kern>(k: K, acc: &mut [u64], x: &[u64]) {
+/// `acc *= s` pointwise, or `acc ^= s * x` with `x`; split between threads.
+fn pointwise<K: Kern>(k: K, acc: &mut [u64], s: &[u64], x: Option<&[u64]>) {
     use rayon::prelude::*;
     const CH: usize = 1 << 14;
-    acc.par_chunks_mut(CH)
-        .zip(x.par_chunks(CH))
-        .for_each(|(a, b)| k.mul_assign(a, b));
+    match x {
+        None => acc
+            .par_chunks_mut(CH)
+            .zip(s.par_chunks(CH))
+            .for_each(|(a, b)| k.mul_assign(a, b)),
+        Some(x) => acc
+            .par_chunks_mut(CH)
+            .zip(s.par_chunks(CH))
+            .zip(x.par_chunks(CH))
+            .for_each(|((a, b), c)| k.mul_acc(a, b, c)),
+    }
 }
 
 /// `out[t]` = bits `[32 t - shift, 32 t - shift + 32)` of the `bits`-bit
