@@ -71,16 +71,71 @@ pub fn convert<K: Kern>(k: K, f: &mut [u64], unit: usize, mode: Conv) {
     let kk = n.trailing_zeros();
     let t = 31 - (kk - 1).leading_zeros(); // largest t with 2^t < kk
     let tau = 1usize << (1u32 << t);
+    let rows = n / tau;
     if mode.forward() {
         taylor(k, f, unit, tau, mode);
     }
-    for row in f.chunks_exact_mut(tau * unit) {
-        convert(k, row, unit, mode);
+    if unit == 1 && rows >= 8 && n <= TRANSPOSE_MAX {
+        // The rows are `rows` conversions of size tau on single elements:
+        // transposed, they are one conversion whose coefficients are runs
+        // of `rows` elements, which vectorises.
+        SCRATCH.with(|cell| {
+            let mut buf = cell.take();
+            buf.resize(n, 0);
+            transpose(f, &mut buf[..n], rows, tau);
+            convert(k, &mut buf[..n], rows, mode);
+            transpose(&buf[..n], f, tau, rows);
+            cell.set(buf);
+        });
+    } else {
+        for row in f.chunks_exact_mut(tau * unit) {
+            convert(k, row, unit, mode);
+        }
     }
     convert(k, f, unit * tau, mode);
     if !mode.forward() {
         taylor(k, f, unit, tau, mode);
     }
+}
+
+/// Largest conversion whose rows are done by transposing (it sits in the
+/// core's cache).
+const TRANSPOSE_MAX: usize = 1 << 16;
+
+thread_local! {
+    static SCRATCH: std::cell::Cell<Vec<u64>> = const { std::cell::Cell::new(Vec::new()) };
+}
+
+/// `dst[c * rows + r] = src[r * cols + c]` (a `rows x cols` matrix, row
+/// major, into its transpose), in 8 x 8 tiles.
+fn transpose(src: &[u64], dst: &mut [u64], rows: usize, cols: usize) {
+    debug_assert!(src.len() == rows * cols && dst.len() == rows * cols);
+    const T: usize = 8;
+    if rows < T || cols < T {
+        for r in 0..rows {
+            for c in 0..cols {
+                dst[c * rows + r] = src[r * cols + c];
+            }
+        }
+        return;
+    }
+    for r0 in (0..rows).step_by(T) {
+        for c0 in (0..cols).step_by(T) {
+            for r in r0..r0 + T {
+                let s = &src[r * cols + c0..r * cols + c0 + T];
+                for (i, &v) in s.iter().enumerate() {
+                    dst[(c0 + i) * rows + r] = v;
+                }
+            }
+        }
+    }
+}
+
+/// The recursive Taylor expansion of size `f.len()` at `y^tau + y` (unit
+/// 1), the slow twin of [`super::passes::taylor_pass`].
+#[cfg(test)]
+pub(crate) fn taylor_for_tests<K: Kern>(k: K, f: &mut [u64], tau: usize, mode: Conv) {
+    taylor(k, f, 1, tau, mode)
 }
 
 /// The Taylor expansion at `y^tau + y` (or its inverse / transposes).

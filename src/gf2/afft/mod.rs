@@ -59,6 +59,7 @@
 pub mod convert;
 pub mod gf64;
 pub mod kernel;
+pub mod passes;
 pub mod transform;
 #[cfg(target_arch = "x86_64")]
 mod x86;
@@ -66,7 +67,9 @@ mod x86;
 use crate::bits::words_for;
 use crate::gf2::Backend;
 use convert::Conv;
-use kernel::{Kern, Portable};
+use kernel::{Bfly, Kern, Portable};
+use passes::TAU;
+use rayon::prelude::*;
 
 /// Data bits per field element.
 const CHUNK: usize = 32;
@@ -202,8 +205,25 @@ impl AfftWindow {
         let na = self.nx + self.mo - 1;
         shifted_chunks(&seed[..words_for(bits)], bits, self.shift, &mut f[..na]);
         let k = AnyKern::new(self.backend);
-        convert::convert(k, f, 1, Conv::ToMonoT);
-        transform::ifft_t(k, f);
+        if self.len <= TAU {
+            convert::convert(k, f, 1, Conv::ToMonoT);
+            transform::ifft_t(k, f);
+            return;
+        }
+        // D^T then IFFT^T, as a Taylor pass, a column pass (the conversion
+        // on whole rows and the levels >= 16) and a row pass (module docs of
+        // `passes`).
+        let rows = self.len / TAU;
+        let top = self.len.trailing_zeros() - 1;
+        passes::taylor_pass(k, f, rows, Conv::ToMonoT);
+        passes::col_pass(f, rows, rows, |buf, w| {
+            convert::convert(k, buf, w, Conv::ToMonoT);
+            passes::row_levels(k, Bfly::IfftT, buf, w, 0, top);
+        });
+        f.par_chunks_mut(TAU).enumerate().for_each(|(r, row)| {
+            convert::convert(k, row, 1, Conv::ToMonoT);
+            transform::top_down(k, Bfly::IfftT, row, r * TAU);
+        });
     }
 
     /// Computes the window for input words `x` (n bits) into `out`
@@ -216,10 +236,32 @@ impl AfftWindow {
         assert!(scratch.len() >= self.len, "scratch too small");
         assert_eq!(seed.spec.len(), self.len, "seed prepared for another plan");
         let f = &mut scratch[..self.len];
-        self.transform_input(x, f);
         let k = AnyKern::new(self.backend);
-        pointwise(k, f, &seed.spec, None);
-        self.finish(f, out);
+        if !self.input_by_passes() {
+            self.transform_input(x, f);
+            pointwise(k, f, &seed.spec, None);
+            self.finish(f, out);
+            return;
+        }
+        // One row pass between the input's column pass and the output's:
+        // the input's levels < 16, the product with the seed, the output's
+        // levels < 16.
+        self.input_cols(k, x, f);
+        f.par_chunks_mut(TAU)
+            .zip(seed.spec.par_chunks(TAU))
+            .enumerate()
+            .for_each(|(r, (row, s))| {
+                self.input_row(k, row, r);
+                k.mul_assign(row, s);
+                self.output_row(k, row, r);
+            });
+        self.output_after_rows(k, f, out);
+    }
+
+    /// Whether the input side runs as passes (its support fills whole rows
+    /// of a transform longer than one row).
+    fn input_by_passes(&self) -> bool {
+        self.len > TAU && self.nx.next_power_of_two() >= TAU
     }
 
     /// The input's transform `FFT(C Xrev)` into `f` (the transform length).
@@ -231,11 +273,99 @@ impl AfftWindow {
     pub fn transform_input(&self, x: &[u64], f: &mut [u64]) {
         assert_eq!(x.len(), words_for(self.n), "input words");
         assert_eq!(f.len(), self.len, "transform length");
+        let k = AnyKern::new(self.backend);
+        if self.input_by_passes() {
+            self.input_cols(k, x, f);
+            f.par_chunks_mut(TAU)
+                .enumerate()
+                .for_each(|(r, row)| self.input_row(k, row, r));
+            return;
+        }
         let sup = self.nx.next_power_of_two();
         reversed_chunks(x, self.nx, &mut f[..sup]);
-        let k = AnyKern::new(self.backend);
         convert::convert(k, &mut f[..sup], 1, Conv::ToNovel);
         transform::fft(k, f, sup);
+    }
+
+    /// The input side up to its row pass: encoding, the Taylor pass and the
+    /// column pass (conversion on whole rows, copies to every block of the
+    /// transform, levels >= 16 in each).
+    fn input_cols(&self, k: AnyKern, x: &[u64], f: &mut [u64]) {
+        let sup = self.nx.next_power_of_two();
+        reversed_chunks(x, self.nx, &mut f[..sup]);
+        let (rc, rows) = (sup / TAU, self.len / TAU);
+        if rc >= 2 {
+            passes::taylor_pass(k, &mut f[..sup], rc, Conv::ToNovel);
+        }
+        let top = sup.trailing_zeros();
+        passes::col_pass(f, rc, rows, |buf, w| {
+            convert::convert(k, buf, w, Conv::ToNovel);
+            buf.resize(rows * w, 0);
+            let (first, rest) = buf.split_at_mut(rc * w);
+            for c in rest.chunks_exact_mut(rc * w) {
+                c.copy_from_slice(first);
+            }
+            if rc >= 2 {
+                for (j, blk) in buf.chunks_exact_mut(rc * w).enumerate() {
+                    passes::row_levels(k, Bfly::Fft, blk, w, j * rc, top - 1);
+                }
+            }
+        });
+    }
+
+    /// The input side's work on row r: the conversion inside the row and
+    /// the levels < 16.
+    fn input_row(&self, k: AnyKern, row: &mut [u64], r: usize) {
+        convert::convert(k, row, 1, Conv::ToNovel);
+        transform::top_down(k, Bfly::Fft, row, r * TAU);
+    }
+
+    /// The output side's work on row r (of a transform longer than one
+    /// row): the transposed levels below `min(16, log2 M')`, block by block.
+    fn output_row(&self, k: AnyKern, row: &mut [u64], r: usize) {
+        let sub = self.mo.next_power_of_two().min(TAU);
+        for (j, blk) in row.chunks_exact_mut(sub).enumerate() {
+            transform::bottom_up(k, Bfly::FftT, blk, r * TAU + j * sub);
+        }
+    }
+
+    /// The output side after its row pass: the transposed levels >= 16 and
+    /// the sum over blocks, then `C^T` and the decoding.
+    fn output_after_rows(&self, k: AnyKern, f: &mut [u64], out: &mut [u64]) {
+        let sub = self.mo.next_power_of_two();
+        let rows = self.len / TAU;
+        if sub < TAU {
+            // Sum the blocks of every row, then of all rows.
+            let (first, rest) = f.split_at_mut(sub);
+            for c in rest.chunks_exact(sub) {
+                k.xor_into(first, c);
+            }
+            convert::convert(k, first, 1, Conv::ToNovelT);
+            decode(&first[..self.mo], self.m, out);
+            return;
+        }
+        let ro = sub / TAU;
+        let top = sub.trailing_zeros();
+        passes::col_pass(f, rows, ro, |buf, w| {
+            if ro >= 2 {
+                for (j, blk) in buf.chunks_exact_mut(ro * w).enumerate() {
+                    passes::row_levels(k, Bfly::FftT, blk, w, j * ro, top - 1);
+                }
+            }
+            let (first, rest) = buf.split_at_mut(ro * w);
+            for c in rest.chunks_exact(ro * w) {
+                k.xor_into(first, c);
+            }
+            buf.truncate(ro * w);
+            convert::convert(k, buf, w, Conv::ToNovelT);
+        });
+        let head = &mut f[..sub];
+        head.par_chunks_mut(TAU)
+            .for_each(|row| convert::convert(k, row, 1, Conv::ToNovelT));
+        if ro >= 2 {
+            passes::taylor_pass(k, head, ro, Conv::ToNovelT);
+        }
+        decode(&head[..self.mo], self.m, out);
     }
 
     /// `acc ^= input . seed`: the transform-domain form of one Toeplitz
@@ -260,6 +390,13 @@ impl AfftWindow {
         assert_eq!(f.len(), self.len, "transform length");
         assert_eq!(out.len(), words_for(self.m), "output words");
         let k = AnyKern::new(self.backend);
+        if self.len > TAU {
+            f.par_chunks_mut(TAU)
+                .enumerate()
+                .for_each(|(r, row)| self.output_row(k, row, r));
+            self.output_after_rows(k, f, out);
+            return;
+        }
         let sub = transform::fft_t(k, f, self.mo);
         convert::convert(k, &mut f[..sub], 1, Conv::ToNovelT);
         decode(&f[..self.mo], self.m, out);
@@ -468,6 +605,50 @@ mod tests {
                 let mut scratch = vec![0xdead_beefu64; plan.scratch_len()];
                 plan.compute(&prep, &x, &mut out, &mut scratch);
                 assert_eq!(out, window_oracle(&s, &x, n, m), "{be:?} n={n} m={m}");
+            }
+        }
+    }
+
+    /// Sizes whose transform is longer than one row (the pass-structured
+    /// path), against the Karatsuba engine (itself tested against the
+    /// bitwise product), including an output shorter than one row and an
+    /// input that does not fill its rows.
+    #[test]
+    fn large_windows_match_karatsuba() {
+        use crate::gf2::middle::ToeplitzWindow;
+        let sizes = [
+            ((1 << 22) + 37, (1 << 21) - 5),
+            (3 << 21, 1000),
+            ((1 << 21) + 64 * 3, (1 << 22) + 1),
+            (1 << 23, 1 << 22),
+            (5 << 20, 1 << 19),
+        ];
+        for (i, &(n, m)) in sizes.iter().enumerate() {
+            let s = rand_words(100 + i as u64, n + m - 1);
+            let x = rand_words(200 + i as u64, n);
+            let kara = ToeplitzWindow::new(n, m, Backend::detect());
+            let mut want = vec![0u64; words_for(m)];
+            let mut ks = vec![0u64; kara.scratch_len()];
+            kara.compute(&kara.prepare(&s), &x, &mut want, &mut ks);
+            for be in Backend::all_supported() {
+                if be == Backend::Portable && n > 1 << 22 {
+                    continue;
+                }
+                let plan = AfftWindow::new(n, m, be);
+                assert!(plan.transform_len() > passes::TAU, "n={n} m={m}");
+                let prep = plan.prepare(&s);
+                let mut out = vec![0u64; words_for(m)];
+                let mut scratch = vec![7u64; plan.scratch_len()];
+                plan.compute(&prep, &x, &mut out, &mut scratch);
+                assert!(out == want, "{be:?} n={n} m={m}");
+                // The same through the transform-domain pieces.
+                let mut f = vec![0u64; plan.transform_len()];
+                plan.transform_input(&x, &mut f);
+                let mut acc = vec![0u64; plan.transform_len()];
+                plan.accumulate(&mut acc, &f, &prep);
+                let mut out2 = vec![0u64; words_for(m)];
+                plan.finish(&mut acc, &mut out2);
+                assert!(out2 == want, "pieces {be:?} n={n} m={m}");
             }
         }
     }

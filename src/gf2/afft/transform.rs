@@ -49,7 +49,7 @@ pub const BLOCK: usize = 1 << 11;
 /// Blocks from this many elements on are split between threads.
 const PARALLEL: usize = 1 << 15;
 
-fn top_down<K: Kern>(k: K, kind: Bfly, f: &mut [u64], pos: usize) {
+pub(crate) fn top_down<K: Kern>(k: K, kind: Bfly, f: &mut [u64], pos: usize) {
     let len = f.len();
     if len <= BLOCK {
         k.block(kind, f, pos);
@@ -70,7 +70,7 @@ fn top_down<K: Kern>(k: K, kind: Bfly, f: &mut [u64], pos: usize) {
     }
 }
 
-fn bottom_up<K: Kern>(k: K, kind: Bfly, f: &mut [u64], pos: usize) {
+pub(crate) fn bottom_up<K: Kern>(k: K, kind: Bfly, f: &mut [u64], pos: usize) {
     let len = f.len();
     if len <= BLOCK {
         k.block(kind, f, pos);
