@@ -62,7 +62,13 @@ impl Toeplitz {
 
     /// Hashes one block with a prepared seed, or with a raw one prepared in
     /// the pooled scratch.
-    fn run(&self, seed: Option<&WindowSeed>, raw_seed: Option<&Bits>, input: &Bits, out: &mut Bits) {
+    fn run(
+        &self,
+        seed: Option<&WindowSeed>,
+        raw_seed: Option<&Bits>,
+        input: &Bits,
+        out: &mut Bits,
+    ) {
         check_len("toeplitz input", self.n, input.len());
         check_len("toeplitz output", self.m, out.len());
         self.pool.with(
@@ -76,7 +82,8 @@ impl Toeplitz {
                     }
                     (None, None) => unreachable!("a seed is given"),
                 };
-                self.window.compute(ps, input.words(), out.words_mut(), scratch);
+                self.window
+                    .compute(ps, input.words(), out.words_mut(), scratch);
             },
         )
     }

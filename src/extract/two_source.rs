@@ -151,7 +151,8 @@ impl TwoSource {
                     None => {
                         let y = y.expect("a second source is given");
                         cyclic_extend(y.words(), n, d, &mut sc.ext);
-                        self.window.prepare_into(&sc.ext, &mut sc.seed, &mut sc.window);
+                        self.window
+                            .prepare_into(&sc.ext, &mut sc.seed, &mut sc.window);
                         &sc.seed
                     }
                 };

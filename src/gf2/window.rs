@@ -221,7 +221,9 @@ impl Window {
         }
         let inner = match engine {
             Engine::Clmul(be) => Inner::Clmul(ToeplitzWindow::new(n, m, be)),
-            Engine::Fft => Inner::Fft(FftWindow::new(n, m).ok_or(WindowError::FftTooLarge { n, m })?),
+            Engine::Fft => {
+                Inner::Fft(FftWindow::new(n, m).ok_or(WindowError::FftTooLarge { n, m })?)
+            }
             Engine::Additive(be) => {
                 if !AfftWindow::fits(n, m) {
                     return Err(WindowError::TooLarge { n, m });
@@ -243,7 +245,9 @@ impl Window {
         match &self.inner {
             Inner::Clmul(w) => WindowScratch::Words(vec![0; w.scratch_len()]),
             Inner::Fft(f) => WindowScratch::Fft(f.make_scratch()),
-            Inner::Additive(a) => WindowScratch::Words(vec![0; a.scratch_len()]),
+            Inner::Additive(a) => {
+                WindowScratch::Words(super::afft::memory::zeroed(a.scratch_len()))
+            }
         }
     }
 
@@ -291,7 +295,13 @@ impl Window {
     ///
     /// # Panics
     /// On wrong lengths, or a seed or scratch made for another window.
-    pub fn compute(&self, seed: &WindowSeed, x: &[u64], out: &mut [u64], scratch: &mut WindowScratch) {
+    pub fn compute(
+        &self,
+        seed: &WindowSeed,
+        x: &[u64],
+        out: &mut [u64],
+        scratch: &mut WindowScratch,
+    ) {
         match (&self.inner, seed, scratch) {
             (Inner::Clmul(w), WindowSeed::Clmul(p), WindowScratch::Words(s)) => {
                 w.compute(p, x, out, s)

@@ -59,6 +59,7 @@
 pub mod convert;
 pub mod gf64;
 pub mod kernel;
+pub mod memory;
 pub mod passes;
 pub mod transform;
 #[cfg(target_arch = "x86_64")]
@@ -200,8 +201,7 @@ impl AfftWindow {
             seed.len()
         );
         let f = &mut into.spec;
-        f.clear();
-        f.resize(self.len, 0);
+        memory::resize_zeroed(f, self.len);
         let na = self.nx + self.mo - 1;
         shifted_chunks(&seed[..words_for(bits)], bits, self.shift, &mut f[..na]);
         let k = AnyKern::new(self.backend);

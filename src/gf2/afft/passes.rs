@@ -61,26 +61,10 @@ impl Shared {
             len: f.len(),
         }
     }
-    /// # Safety
-    /// No other thread may write position `i` meanwhile.
-    #[inline]
-    unsafe fn get(self, i: usize) -> u64 {
-        assert!(i < self.len);
-        // SAFETY: in bounds (checked); exclusivity by the caller.
-        unsafe { *self.ptr.add(i) }
-    }
-    /// # Safety
-    /// No other thread may read or write position `i` meanwhile.
-    #[inline]
-    unsafe fn set(self, i: usize, v: u64) {
-        assert!(i < self.len);
-        // SAFETY: in bounds (checked); exclusivity by the caller.
-        unsafe { *self.ptr.add(i) = v }
-    }
     /// Copies `dst.len()` elements from position `i`.
     ///
     /// # Safety
-    /// As [`get`](Self::get) for every position read.
+    /// No other thread may write the positions read meanwhile.
     #[inline]
     unsafe fn read(self, i: usize, dst: &mut [u64]) {
         assert!(i + dst.len() <= self.len);
@@ -90,7 +74,7 @@ impl Shared {
     /// Copies `src` to position `i`.
     ///
     /// # Safety
-    /// As [`set`](Self::set) for every position written.
+    /// No other thread may read or write the positions written meanwhile.
     #[inline]
     unsafe fn write(self, i: usize, src: &[u64]) {
         assert!(i + src.len() <= self.len);
@@ -117,23 +101,42 @@ where
     assert!(f.len() >= out_rows.max(in_rows) * cols);
     let w = stripe_width(out_rows.max(in_rows));
     let sh = Shared::new(f);
-    (0..cols / w).into_par_iter().for_each_init(
-        || Vec::with_capacity(out_rows.max(in_rows) * w),
-        |buf, s| {
+    (0..cols / w).into_par_iter().for_each(|s| {
+        with_stripe(|buf| {
             let c0 = s * w;
+            buf.clear();
             buf.resize(in_rows * w, 0);
             for r in 0..in_rows {
                 // SAFETY: stripe s alone touches columns [c0, c0 + w).
                 unsafe { sh.read(r * cols + c0, &mut buf[r * w..(r + 1) * w]) };
             }
             op(buf, w);
-            assert_eq!(buf.len(), out_rows * w, "column pass: op left the wrong size");
+            assert_eq!(
+                buf.len(),
+                out_rows * w,
+                "column pass: op left the wrong size"
+            );
             for r in 0..out_rows {
                 // SAFETY: as above.
                 unsafe { sh.write(r * cols + c0, &buf[r * w..(r + 1) * w]) };
             }
-        },
-    );
+        })
+    });
+}
+
+thread_local! {
+    static STRIPE: std::cell::Cell<Vec<u64>> = const { std::cell::Cell::new(Vec::new()) };
+}
+
+/// Runs `body` with this thread's stripe buffer (kept between passes, so a
+/// pass allocates nothing after the first).
+fn with_stripe<R>(body: impl FnOnce(&mut Vec<u64>) -> R) -> R {
+    STRIPE.with(|cell| {
+        let mut buf = cell.take();
+        let r = body(&mut buf);
+        cell.set(buf);
+        r
+    })
 }
 
 /// Transform levels `top ..= TAU_LOG` of kind `kind` on a stripe buffer of
@@ -180,50 +183,60 @@ pub fn taylor_pass<K: Kern>(k: K, f: &mut [u64], rows: usize, mode: Conv) {
     let sh = Shared::new(&mut f[..n]);
     let se = Shared::new(&mut ext);
     let superset = !transposed;
-    (0..stripes).into_par_iter().for_each_init(
-        || vec![0u64; rows * w],
-        |buf, s| {
+    // Row r's skewed columns [c0, c0 + w) are its columns [c0 - r, c0 - r +
+    // w): the part in [0, tau) is in the array, the part in [tau, tau + rows)
+    // in `ext`, the rest is zero.
+    let parts = move |c0: usize, r: usize| {
+        let lo = c0 as isize - r as isize;
+        let hi = lo + w as isize;
+        let clip = |a: isize, b: isize| (lo.max(a), hi.min(b));
+        (
+            lo,
+            clip(0, tau as isize),
+            clip(tau as isize, (tau + rows) as isize),
+        )
+    };
+    (0..stripes).into_par_iter().for_each(|s| {
+        with_stripe(|buf| {
             let c0 = s * w;
+            buf.clear();
+            buf.resize(rows * w, 0);
             for r in 0..rows {
                 let row = &mut buf[r * w..(r + 1) * w];
-                for (i, v) in row.iter_mut().enumerate() {
-                    let c = (c0 + i) as isize - r as isize;
-                    // SAFETY: (row r, skewed column c0 + i) belongs to
-                    // stripe s alone, and so does its array or side-buffer
-                    // position.
-                    *v = unsafe {
-                        if c < 0 {
-                            0
-                        } else if (c as usize) < tau {
-                            sh.get(r * tau + c as usize)
-                        } else if (c as usize) < tau + rows {
-                            se.get(r * rows + c as usize - tau)
-                        } else {
-                            0
-                        }
-                    };
+                let (lo, (a0, a1), (e0, e1)) = parts(c0, r);
+                // SAFETY: (row r, skewed columns of stripe s) belong to
+                // stripe s alone, and so do their array and `ext` positions.
+                unsafe {
+                    if a0 < a1 {
+                        let d = (a0 - lo) as usize;
+                        sh.read(r * tau + a0 as usize, &mut row[d..d + (a1 - a0) as usize]);
+                    }
+                    if e0 < e1 {
+                        let d = (e0 - lo) as usize;
+                        let src = r * rows + (e0 as usize - tau);
+                        se.read(src, &mut row[d..d + (e1 - e0) as usize]);
+                    }
                 }
             }
             zeta(k, buf, w, rows, superset);
             for r in 0..rows {
                 let row = &buf[r * w..(r + 1) * w];
-                for (i, &v) in row.iter().enumerate() {
-                    let c = (c0 + i) as isize - r as isize;
-                    if c < 0 {
-                        continue;
+                let (lo, (a0, a1), (e0, e1)) = parts(c0, r);
+                // SAFETY: as for the gather.
+                unsafe {
+                    if a0 < a1 {
+                        let d = (a0 - lo) as usize;
+                        sh.write(r * tau + a0 as usize, &row[d..d + (a1 - a0) as usize]);
                     }
-                    // SAFETY: as for the gather.
-                    unsafe {
-                        if (c as usize) < tau {
-                            sh.set(r * tau + c as usize, v);
-                        } else if !transposed && (c as usize) < tau + rows {
-                            se.set(r * rows + c as usize - tau, v);
-                        }
+                    if !transposed && e0 < e1 {
+                        let d = (e0 - lo) as usize;
+                        let dst = r * rows + (e0 as usize - tau);
+                        se.write(dst, &row[d..d + (e1 - e0) as usize]);
                     }
                 }
             }
-        },
-    );
+        })
+    });
     if !transposed {
         fold(f, &ext, rows, mode);
     }
