@@ -70,6 +70,7 @@ pub fn main() -> ExitCode {
             };
         }
     };
+    bench::install_thresholds();
     let result: anyhow::Result<ExitCode> = match cli.command {
         Command::Extract(a) => extract::run_extract(a),
         Command::Verify(a) => extract::run_verify(a),

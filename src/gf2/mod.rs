@@ -18,6 +18,8 @@ pub mod clmul;
 pub mod fft;
 pub mod karatsuba;
 pub mod middle;
+#[doc(hidden)]
+pub mod outside;
 pub mod reference;
 pub mod window;
 
