@@ -338,6 +338,9 @@ pub fn engines_for(case: &Case) -> Vec<Engine> {
         .into_iter()
         .filter(|e| !(e.name() == "portable" && case.input_bits > 1 << 18))
         .filter(|e| !(e.name() == "additive-fft-portable" && case.input_bits > 1 << 22))
+        // Karatsuba takes minutes on whole-run sizes; the additive FFT and
+        // the generator's cross-check cover them.
+        .filter(|e| !(matches!(e, Engine::Clmul(_)) && case.input_bits > 1 << 26))
         .filter(|e| {
             !(case.extractor == "trevisan" && matches!(e, Engine::Fft | Engine::Additive(_)))
         })

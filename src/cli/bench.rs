@@ -31,7 +31,12 @@ pub struct BenchArgs {
     #[arg(long = "gf2x", value_name = "LIBGF2X_SO", requires = "whole_run")]
     pub gf2x: Option<std::path::PathBuf>,
     /// With --whole-run: thread counts to measure (comma separated)
-    #[arg(long, value_delimiter = ',', default_value = "1,2", requires = "whole_run")]
+    #[arg(
+        long,
+        value_delimiter = ',',
+        default_value = "1,2",
+        requires = "whole_run"
+    )]
     pub threads: Vec<usize>,
     /// Measure where the additive FFT overtakes Karatsuba on this machine and
     /// write the thresholds file that `auto` then uses
@@ -264,7 +269,9 @@ fn whole_run(a: &BenchArgs) -> anyhow::Result<ExitCode> {
                 engines.push(E::Clmul(best));
             }
             for &threads in &a.threads {
-                let pool = rayon::ThreadPoolBuilder::new().num_threads(threads).build()?;
+                let pool = rayon::ThreadPoolBuilder::new()
+                    .num_threads(threads)
+                    .build()?;
                 for &engine in &engines {
                     pb.set_message(format!("{engine} 2^{log_n} m={m} {threads} thread(s)"));
                     reset_peak();
@@ -303,7 +310,9 @@ fn whole_run(a: &BenchArgs) -> anyhow::Result<ExitCode> {
         return Ok(ExitCode::SUCCESS);
     }
     println!("one Toeplitz hash of one block (seed preparation included), best of 2-3 runs;");
-    println!("ratio: time / gf2x full product (seed x input) timed in this run; peak: resident memory");
+    println!(
+        "ratio: time / gf2x full product (seed x input) timed in this run; peak: resident memory"
+    );
     println!(
         "{:>5} {:>9} {:>3} {:<24} {:>10} {:>9} {:>7} {:>9}",
         "n", "m", "thr", "engine", "time", "Mbit/s", "ratio", "peak MiB"

@@ -53,7 +53,10 @@ impl Gf2x {
     /// Not available off Unix.
     #[cfg(not(unix))]
     pub fn load(path: &Path) -> Result<Gf2x, String> {
-        Err(format!("{}: loading gf2x needs a Unix system", path.display()))
+        Err(format!(
+            "{}: loading gf2x needs a Unix system",
+            path.display()
+        ))
     }
 
     /// The full product `a * b` into `c` (`a.len() + b.len()` words).
