@@ -10,7 +10,8 @@ use super::common;
 use anyhow::Context;
 use sluice::bits::{BitOrder, Bits, Format};
 use sluice::extract::{Extractor, Toeplitz};
-use sluice::pipeline::{atomic::AtomicFile, BitFile, Run, Source};
+use sluice::files::{AtomicFile, Kind, Replace};
+use sluice::pipeline::{BitFile, Run, Source};
 use std::io::Write;
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -71,7 +72,7 @@ pub fn run(a: DemoArgs) -> anyhow::Result<ExitCode> {
 
     // 1. One run of the simulated device.
     let raw = simulate(n);
-    let mut f = AtomicFile::create(&raw_path, false)?;
+    let mut f = AtomicFile::create(&raw_path, Kind::DemoRaw, Replace::SameKind)?;
     f.write_all(&raw.to_packed(BitOrder::Msb))?;
     f.commit()?;
 
@@ -103,7 +104,7 @@ pub fn run(a: DemoArgs) -> anyhow::Result<ExitCode> {
             .map_err(|e| anyhow::anyhow!("operating-system random source: {e}"))?;
     }
     let seed = Bits::from_packed(&seed_bytes, d, BitOrder::Msb)?;
-    let mut f = AtomicFile::create(&seed_path, true)?;
+    let mut f = AtomicFile::create(&seed_path, Kind::SeedFile, Replace::SameKind)?;
     f.write_all(&seed.to_packed(BitOrder::Msb))?;
     f.commit()?;
 

@@ -7,16 +7,13 @@
 //! everything has been written and synced. Seeds are never written, printed
 //! or logged here.
 
-pub mod atomic;
 pub mod ledgered;
 pub mod receipt;
-#[doc(hidden)]
-pub mod test_hook;
 
 use crate::bits::io::{open_input, BitWriter, BlockReader};
 use crate::bits::{BitOrder, Bits, Error as BitsError, ErrorKind as BitsErrorKind, Format};
 use crate::extract::{Extractor, SeededExtractor};
-use atomic::AtomicFile;
+use crate::files::{fault, AtomicFile, Kind, Replace};
 use rayon::prelude::*;
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
@@ -205,15 +202,33 @@ impl Run<'_> {
     /// about every 100 ms with the input-bit equivalent of the output bits
     /// the extractor reports done (so one long block moves it too).
     pub fn execute(&self, progress: impl FnMut(u64)) -> Result<Report, Error> {
+        self.execute_replacing(Replace::SameKind, progress)
+    }
+
+    /// As [`Run::execute`]; an existing output file is replaced only as
+    /// `replace` allows (`--force` gives [`Replace::Any`]).
+    pub fn execute_replacing(
+        &self,
+        replace: Replace,
+        progress: impl FnMut(u64),
+    ) -> Result<Report, Error> {
         let out_err = |e: io::Error| Error::Output {
             path: self.output.path.clone(),
             source: e,
         };
-        let mut sink = Sink::open(&self.output).map_err(out_err)?;
-        let report = self.execute_with(progress, |y| sink.write_bits(y).map_err(out_err))?;
-        test_hook::point("during-write");
+        let mut sink = Sink::open(&self.output, replace).map_err(out_err)?;
+        let report = self.execute_with(progress, |y| {
+            sink.write_bits(y).map_err(|e| {
+                out_err(crate::files::space::explain(
+                    e,
+                    &self.output.path,
+                    Kind::ExtractOutput.describe(),
+                ))
+            })
+        })?;
+        fault::point("during-write");
         sink.finish().map_err(out_err)?;
-        test_hook::point("after-rename");
+        fault::point("after-rename");
         Ok(report)
     }
 
@@ -385,13 +400,13 @@ enum Sink {
 }
 
 impl Sink {
-    fn open(out: &BitFile) -> io::Result<Sink> {
+    fn open(out: &BitFile, replace: Replace) -> io::Result<Sink> {
         Ok(if out.is_std() {
             Sink::Stdout(BitWriter::new(io::stdout(), out.format, out.order))
         } else {
             // Outputs are secret: owner-only from creation.
             Sink::File(BitWriter::new(
-                AtomicFile::create(&out.path, true)?,
+                AtomicFile::create(&out.path, Kind::ExtractOutput, replace)?,
                 out.format,
                 out.order,
             ))
