@@ -121,6 +121,9 @@ pub enum Error {
         /// The cause.
         source: io::Error,
     },
+    /// A size that cannot be held in memory.
+    #[error(transparent)]
+    TooLarge(#[from] crate::files::space::TooLarge),
     /// The input holds no full block.
     #[error("{path}: the input holds {available} bits, fewer than one block of {block} bits; nothing was written")]
     NoBlock {
@@ -295,6 +298,25 @@ impl Run<'_> {
     ) -> Result<Report, Error> {
         let n = self.extractor.input_bits();
         let m = self.extractor.output_bits();
+        // Sizes are checked against what the input can hold and against
+        // the memory available before the batch is allocated.
+        if let Source::File(f) = &self.input {
+            if let Some(max) = crate::bits::io::max_bits_in(&f.path, f.format) {
+                let want = self.input_bits.unwrap_or(n as u64).max(n as u64);
+                if want > max {
+                    return Err(BitsError::new(BitsErrorKind::TooShort {
+                        wanted: want,
+                        available: max,
+                    })
+                    .in_file(&f.path)
+                    .into());
+                }
+            }
+        }
+        crate::files::space::check_bits(
+            n as u128 + m as u128,
+            &format!("a block of {n} input bits and {m} output bits"),
+        )?;
         let mut reader = self.input.reader()?;
         let input_bits = match &self.input {
             Source::Memory { bits, .. } => Some(self.input_bits.unwrap_or(bits.len() as u64)),
