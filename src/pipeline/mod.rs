@@ -459,18 +459,41 @@ pub fn read_seed(
     needed: usize,
     allow_longer: bool,
 ) -> Result<Bits, SeedFileError> {
-    let all = crate::bits::io::read_bits(path, format, BitOrder::Msb, None)?;
+    if let Some(max) = crate::bits::io::max_bits_in(path, format) {
+        if (needed as u64) > max {
+            return Err(SeedFileError::Short {
+                path: path.to_path_buf(),
+                have: max as usize,
+                needed,
+            });
+        }
+    }
+    read_seed_from(open_input(path)?, path, format, needed, allow_longer)
+}
+
+/// [`read_seed`] over any reader (`name` for messages); the fuzz target of
+/// seed files calls it.
+pub fn read_seed_from(
+    r: impl io::Read + Send,
+    name: &Path,
+    format: Format,
+    needed: usize,
+    allow_longer: bool,
+) -> Result<Bits, SeedFileError> {
+    let mut reader = BlockReader::new(r, name, format, BitOrder::Msb);
+    let mut all = Bits::new();
+    reader.read_to_end(&mut all)?;
     let have = all.len();
     if have < needed {
         return Err(SeedFileError::Short {
-            path: path.to_path_buf(),
+            path: name.to_path_buf(),
             have,
             needed,
         });
     }
     if !allow_longer && have > needed.div_ceil(8) * 8 {
         return Err(SeedFileError::Long {
-            path: path.to_path_buf(),
+            path: name.to_path_buf(),
             have,
             needed,
         });
