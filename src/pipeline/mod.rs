@@ -123,7 +123,7 @@ pub enum Error {
     },
     /// A size that cannot be held in memory.
     #[error(transparent)]
-    TooLarge(#[from] crate::files::space::TooLarge),
+    TooLarge(Box<crate::files::space::TooLarge>),
     /// The input holds no full block.
     #[error("{path}: the input holds {available} bits, fewer than one block of {block} bits; nothing was written")]
     NoBlock {
@@ -134,6 +134,12 @@ pub enum Error {
         /// Block size.
         block: u64,
     },
+}
+
+impl From<crate::files::space::TooLarge> for Error {
+    fn from(e: crate::files::space::TooLarge) -> Self {
+        Error::TooLarge(Box::new(e))
+    }
 }
 
 /// Blocks per parallel batch, and the memory it may take.
