@@ -291,10 +291,20 @@ pub fn sync_dir(dir: &Path) -> io::Result<()> {
 
 impl Write for AtomicFile {
     fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
-        self.writer.as_mut().expect("not committed").write(buf)
+        let what = self.kind.describe();
+        self.writer
+            .as_mut()
+            .expect("not committed")
+            .write(buf)
+            .map_err(|e| space::explain(e, &self.dest, what))
     }
     fn flush(&mut self) -> io::Result<()> {
-        self.writer.as_mut().expect("not committed").flush()
+        let what = self.kind.describe();
+        self.writer
+            .as_mut()
+            .expect("not committed")
+            .flush()
+            .map_err(|e| space::explain(e, &self.dest, what))
     }
 }
 

@@ -72,6 +72,10 @@ pub fn no_space(path: &Path, what: &str) -> String {
 
 /// Rewrites a full-disk error into [`no_space`]; other errors gain the path.
 pub fn explain(e: io::Error, path: &Path, what: &str) -> io::Error {
+    if is_full(&e) && e.to_string().starts_with("no space left on ") {
+        // Already explained.
+        return e;
+    }
     if is_full(&e) {
         io::Error::new(io::ErrorKind::StorageFull, no_space(path, what))
     } else {

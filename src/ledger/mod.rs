@@ -451,6 +451,9 @@ impl Ledger {
     ) -> Result<(T, State), E> {
         let dir_existed = self.dir.exists();
         files::create_private_dir(&self.dir).map_err(|e| self.err(e))?;
+        // Temporary files of killed runs (head file, seed store) go here.
+        files::atomic::clean_stale(&self.dir);
+        files::atomic::clean_stale(&self.seeds_dir());
         let path = self.journal_path();
         let existed = path.exists();
         let mut opts = OpenOptions::new();
