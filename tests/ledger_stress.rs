@@ -89,7 +89,7 @@ fn recover(dir: &Path, l: &Path) -> (u32, u32) {
 #[test]
 fn thirty_two_processes_share_one_budget() {
     let reps = if long() { 20 } else { 2 };
-    let mut rng = Rng(0x32_32_32);
+    let mut rng = Rng(0x0032_3232);
     let (mut tried, mut held) = (0, 0);
     for rep in 0..reps {
         let d = tempfile::tempdir().unwrap();
