@@ -70,8 +70,9 @@ pub fn signal(child: &Child, name: &str) {
     assert!(st.success(), "kill -{name} failed");
 }
 
-/// Our temporary names (`.NAME.PID.RANDOM.sluice-tmp`) anywhere under
-/// `dir`.
+/// Temporary names anywhere under `dir`: ours (`.NAME.PID.RANDOM.sluice-tmp`)
+/// and the older spellings (`.NAME.RANDOM.tmp`, `.NAME.tmp-PID`), so the
+/// tests also catch them on an older build.
 pub fn temp_files(dir: &Path) -> Vec<PathBuf> {
     let mut out = Vec::new();
     let mut stack = vec![dir.to_path_buf()];
@@ -83,7 +84,10 @@ pub fn temp_files(dir: &Path) -> Vec<PathBuf> {
             let p = e.path();
             if p.is_dir() {
                 stack.push(p);
-            } else if e.file_name().to_string_lossy().ends_with(".sluice-tmp") {
+            } else if {
+                let n = e.file_name().to_string_lossy().into_owned();
+                n.ends_with(".sluice-tmp") || (n.starts_with('.') && n.contains(".tmp"))
+            } {
                 out.push(p);
             }
         }
