@@ -181,7 +181,6 @@ fn every_edit_of_the_journal_or_the_store_is_caught() {
             }
             _ => {
                 name = "seed store file edited";
-                edited = journal.clone();
                 let which = rng.below(2);
                 let other = 1 - which;
                 let bytes = match rng.below(3) {

@@ -82,12 +82,11 @@ pub fn temp_files(dir: &Path) -> Vec<PathBuf> {
         };
         for e in rd.flatten() {
             let p = e.path();
+            let n = e.file_name().to_string_lossy().into_owned();
+            let temp = n.ends_with(".sluice-tmp") || (n.starts_with('.') && n.contains(".tmp"));
             if p.is_dir() {
                 stack.push(p);
-            } else if {
-                let n = e.file_name().to_string_lossy().into_owned();
-                n.ends_with(".sluice-tmp") || (n.starts_with('.') && n.contains(".tmp"))
-            } {
+            } else if temp {
                 out.push(p);
             }
         }
