@@ -33,6 +33,44 @@ const STALE_AGE: Duration = Duration::from_secs(60);
 /// Temporary files being written by this process.
 static LIVE: Mutex<Vec<PathBuf>> = Mutex::new(Vec::new());
 
+/// Held around the last check for an interruption and the rename, and by
+/// the interruption handler while it marks the process interrupted: so a
+/// rename either happened before the handler ran or never happens.
+static RENAME: Mutex<()> = Mutex::new(());
+
+/// (device, inode) of every file this process renamed into place.
+static RENAMED: Mutex<Vec<(u64, u64)>> = Mutex::new(Vec::new());
+
+/// Runs `f` while no rename can start or be in progress (the interruption
+/// handler marks the process interrupted inside it).
+pub fn without_renames<T>(f: impl FnOnce() -> T) -> T {
+    let _g = RENAME.lock().unwrap_or_else(|p| p.into_inner());
+    f()
+}
+
+#[cfg(unix)]
+fn identity(p: &Path) -> Option<(u64, u64)> {
+    use std::os::unix::fs::MetadataExt;
+    fs::metadata(p).ok().map(|m| (m.dev(), m.ino()))
+}
+
+#[cfg(not(unix))]
+fn identity(_: &Path) -> Option<(u64, u64)> {
+    None
+}
+
+/// Whether the file now at `path` is one this process wrote and renamed
+/// there (so removing it never removes an older file it did not replace).
+pub fn renamed_here(path: &Path) -> bool {
+    let Some(id) = identity(path) else {
+        return false;
+    };
+    RENAMED
+        .lock()
+        .unwrap_or_else(|p| p.into_inner())
+        .contains(&id)
+}
+
 fn live() -> std::sync::MutexGuard<'static, Vec<PathBuf>> {
     LIVE.lock().unwrap_or_else(|p| p.into_inner())
 }
@@ -178,10 +216,23 @@ impl AtomicFile {
             use std::os::unix::fs::OpenOptionsExt;
             opts.mode(0o600);
         }
-        let f = opts
-            .open(&tmp)
-            .map_err(|e| space::explain(e, &tmp, kind.describe()))?;
-        live().push(tmp.clone());
+        // Under the list's lock: either the interruption handler (which
+        // marks the process first, then empties the list) sees this file,
+        // or this sees the mark and creates nothing.
+        let f = {
+            let mut l = live();
+            if super::interrupt::interrupted() {
+                return Err(io::Error::new(
+                    io::ErrorKind::Interrupted,
+                    format!("{}: interrupted", dest.display()),
+                ));
+            }
+            let f = opts
+                .open(&tmp)
+                .map_err(|e| space::explain(e, &tmp, kind.describe()))?;
+            l.push(tmp.clone());
+            f
+        };
         let _ = f.lock();
         guard::set_tag(&f, kind);
         let injected = super::fault::injected_error(&format!("write-{}", kind.tag())).is_some();
@@ -244,6 +295,7 @@ impl AtomicFile {
         }
         f.sync_all()
             .map_err(|e| space::explain(e, &self.dest, what))?;
+        let _no_interrupt = RENAME.lock().unwrap_or_else(|p| p.into_inner());
         if super::interrupt::interrupted() {
             return Err(io::Error::new(
                 io::ErrorKind::Interrupted,
@@ -251,6 +303,9 @@ impl AtomicFile {
             ));
         }
         guard::check_replace(&self.dest, self.kind, self.replace)?;
+        if let Some(id) = identity(&self.tmp) {
+            RENAMED.lock().unwrap_or_else(|p| p.into_inner()).push(id);
+        }
         if self.replace == Replace::Never {
             // A hard link refuses an existing name atomically.
             fs::hard_link(&self.tmp, &self.dest).map_err(|e| {

@@ -47,7 +47,8 @@ pub fn on_interrupt(f: impl FnOnce(&str) -> Vec<String> + Send + 'static) -> Reg
 
 /// What the handler does, without exiting (tests call it directly).
 pub fn run_cleanups(signal: &str) -> Vec<String> {
-    INTERRUPTED.store(true, Ordering::SeqCst);
+    // After this no rename starts; one in progress has finished.
+    super::atomic::without_renames(|| INTERRUPTED.store(true, Ordering::SeqCst));
     let mut lines = Vec::new();
     let taken: Vec<(u64, Cleanup)> = std::mem::take(&mut *cleanups());
     // Partial outputs first, so nothing half-written survives the rest.

@@ -127,7 +127,11 @@ pub fn freeze_appends() {
     std::mem::forget(g);
 }
 
-fn register_freeze_on_interrupt() {
+/// Registers (once per process) the interruption cleanup that freezes
+/// appends ([`freeze_appends`]); every append does it, and a caller that
+/// registers its own cleanup using the ledger calls it first, so the freeze
+/// runs before that cleanup.
+pub fn register_freeze_on_interrupt() {
     static ONCE: std::sync::Once = std::sync::Once::new();
     ONCE.call_once(|| {
         std::mem::forget(files::interrupt::on_interrupt(|_| {

@@ -236,40 +236,44 @@ pub fn execute(
     fault::point("before-reserve");
     let use_id = ledger::random_id()?;
     let _run_lock = ledger.lock_run(&use_id)?;
-    match reserve(ledger, store, spec, &use_id, new_seed.as_mut()) {
-        Ok(()) => {}
-        Err(ReserveError::Before(e)) => return Err(*e),
-        Err(ReserveError::After(e)) => {
-            let resolution = abandon(ledger, &use_id, &format!("seed store: {e}"), false);
-            return Err(Error::After {
-                use_id,
-                reason: e.to_string(),
-                resolution,
-            });
-        }
-    }
-    // From here on an interruption abandons the use (still charged) and
-    // removes what the run wrote; the ledger's own cleanup, registered
-    // earlier, has already stopped this process's appends.
+    // The ledger's cleanup must be registered before ours (it runs first).
+    ledger::register_freeze_on_interrupt();
+    // From here on an interruption abandons the use once it is reserved
+    // (still charged) and removes what the run wrote. Registered before the
+    // reservation: the ledger's own cleanup (registered at this process's
+    // first append, so it runs first) waits for an append in progress and
+    // stops further ones, so the state read here is final.
     let stage = Arc::new(AtomicU8::new(NOTHING));
     let _on_signal = {
         let ledger = ledger.clone();
         let spec = spec.clone();
         let use_id = use_id.clone();
-        let stage = stage.clone();
         interrupt::on_interrupt(move |signal| {
-            let committed = ledger
+            let found = ledger
                 .read()
                 .ok()
-                .and_then(|r| r.state.uses.get(&use_id).map(|u| u.committed))
-                .unwrap_or(false);
+                .and_then(|r| r.state.uses.get(&use_id).map(|u| u.committed));
+            let Some(committed) = found else {
+                return vec![
+                    "the run was stopped before its use was reserved; nothing was charged"
+                        .to_string(),
+                ];
+            };
             if committed {
                 return vec![format!(
                     "use {use_id} had already been committed; its output {} is complete",
                     spec.output.display()
                 )];
             }
-            let existed = remove_outputs(&spec, stage.load(Ordering::SeqCst));
+            // Only files this run renamed into place (never an older output
+            // it had not yet replaced).
+            let mut existed = false;
+            for p in std::iter::once(&spec.output).chain(spec.receipt.iter()) {
+                if crate::files::atomic::renamed_here(p) {
+                    existed |= p == &spec.output;
+                    let _ = std::fs::remove_file(p);
+                }
+            }
             let how = abandon(&ledger, &use_id, &format!("interrupted by {signal}"), true);
             let mut lines = Vec::new();
             if existed {
@@ -285,6 +289,18 @@ pub fn execute(
             lines
         })
     };
+    match reserve(ledger, store, spec, &use_id, new_seed.as_mut()) {
+        Ok(()) => {}
+        Err(ReserveError::Before(e)) => return Err(*e),
+        Err(ReserveError::After(e)) => {
+            let resolution = abandon(ledger, &use_id, &format!("seed store: {e}"), false);
+            return Err(Error::After {
+                use_id,
+                reason: e.to_string(),
+                resolution,
+            });
+        }
+    }
     fault::point("after-reserve");
     let report = match run.execute_replacing(replace, progress) {
         Ok(r) => {
