@@ -29,6 +29,9 @@ pub struct DemoArgs {
     /// Print a JSON report
     #[arg(long)]
     pub json: bool,
+    /// Replace files in the folder even if they are not earlier demo files
+    #[arg(long)]
+    pub force: bool,
 }
 
 /// Probability of a one in the simulated raw bits.
@@ -72,7 +75,7 @@ pub fn run(a: DemoArgs) -> anyhow::Result<ExitCode> {
 
     // 1. One run of the simulated device.
     let raw = simulate(n);
-    let mut f = AtomicFile::create(&raw_path, Kind::DemoRaw, Replace::SameKind)?;
+    let mut f = AtomicFile::create(&raw_path, Kind::DemoRaw, Replace::forced(a.force))?;
     f.write_all(&raw.to_packed(BitOrder::Msb))?;
     f.commit()?;
 
@@ -104,7 +107,7 @@ pub fn run(a: DemoArgs) -> anyhow::Result<ExitCode> {
             .map_err(|e| anyhow::anyhow!("operating-system random source: {e}"))?;
     }
     let seed = Bits::from_packed(&seed_bytes, d, BitOrder::Msb)?;
-    let mut f = AtomicFile::create(&seed_path, Kind::SeedFile, Replace::SameKind)?;
+    let mut f = AtomicFile::create(&seed_path, Kind::SeedFile, Replace::forced(a.force))?;
     f.write_all(&seed.to_packed(BitOrder::Msb))?;
     f.commit()?;
 
@@ -124,7 +127,7 @@ pub fn run(a: DemoArgs) -> anyhow::Result<ExitCode> {
             order: BitOrder::Msb,
         },
     };
-    let report = run.execute(|_| {})?;
+    let report = run.execute_replacing(Replace::forced(a.force), |_| {})?;
     let secs = t0.elapsed().as_secs_f64();
     let out = sluice::bits::io::read_bits(&out_path, Format::Packed, BitOrder::Msb, Some(m))?;
 

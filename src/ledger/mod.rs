@@ -360,8 +360,10 @@ impl Ledger {
         }
     }
 
-    /// Replays `bytes` and checks them against the head file.
-    fn replay_checked(&self, bytes: &[u8]) -> Replay {
+    /// Replays `bytes` and checks them against `head`, the head file as
+    /// read under the same lock as the bytes (outside it another process
+    /// may append between the two reads).
+    fn replay_checked(&self, bytes: &[u8], head: Result<Option<Head>, Error>) -> Replay {
         let path = self.journal_path();
         let mut r = replay(bytes);
         let head_checkable = match &r.problem {
@@ -369,7 +371,7 @@ impl Ledger {
             Some(p) => matches!(p.kind, ErrorKind::TornTail { .. }),
         };
         if head_checkable {
-            match self.read_head() {
+            match head {
                 Ok(Some(h)) => {
                     if let Err(e) = check_head(&r, h.lines, &h.head, Some(h.bytes)) {
                         r.problem = Some(e);
@@ -401,15 +403,22 @@ impl Ledger {
         let mut f = match File::open(&path) {
             Ok(f) => f,
             Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
-                return Ok(self.replay_checked(b""));
+                let head = self.read_head();
+                // A first append may have created both files since the
+                // open: look once more before calling the journal missing.
+                match (&head, File::open(&path)) {
+                    (Ok(Some(_)), Ok(f)) => f,
+                    _ => return Ok(self.replay_checked(b"", head)),
+                }
             }
             Err(e) => return Err(self.err(e)),
         };
         f.lock_shared().map_err(|e| self.err(e))?;
         let mut bytes = Vec::new();
         f.read_to_end(&mut bytes).map_err(|e| self.err(e))?;
+        let head = self.read_head();
         let _ = f.unlock();
-        Ok(self.replay_checked(&bytes))
+        Ok(self.replay_checked(&bytes, head))
     }
 
     /// Under the exclusive lock: replays the journal, lets `decide` look at
@@ -483,7 +492,7 @@ impl Ledger {
             let mut bytes = Vec::new();
             f.seek(SeekFrom::Start(0)).map_err(|e| self.err(e))?;
             f.read_to_end(&mut bytes).map_err(|e| self.err(e))?;
-            let r = self.replay_checked(&bytes);
+            let r = self.replay_checked(&bytes, self.read_head());
             if let Some(p) = r.problem {
                 return Err(E::from(p));
             }
@@ -621,7 +630,7 @@ impl Ledger {
         let res = (|| {
             let mut bytes = Vec::new();
             f.read_to_end(&mut bytes).map_err(|e| self.err(e))?;
-            let r = self.replay_checked(&bytes);
+            let r = self.replay_checked(&bytes, self.read_head());
             let Some(cut) = r.torn_at else {
                 return Err(self.err(Error::new(ErrorKind::NotRepairable {
                     reason: match r.problem {
