@@ -18,6 +18,7 @@ fn filled(uses: usize) -> (tempfile::TempDir, Ledger) {
         eps_seed: 0.0,
         origin: "bench".into(),
         budget: 0.5,
+        store_digest: None,
     }];
     for i in 0..uses {
         let d = format!("{i:064x}");
@@ -39,6 +40,7 @@ fn filled(uses: usize) -> (tempfile::TempDir, Ledger) {
             device_independent: false,
             cross_run_asserted: false,
             repeat_reason: None,
+            output: None,
         });
         bodies.push(Body::UseCommitted {
             use_id: u,

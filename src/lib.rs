@@ -28,6 +28,7 @@ pub mod assess;
 pub mod bits;
 pub mod certify;
 pub mod extract;
+pub mod files;
 pub mod gf2;
 pub mod ledger;
 pub mod pipeline;

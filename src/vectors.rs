@@ -263,7 +263,13 @@ impl Data {
                 }
                 Ok(s)
             }
-            Data::Shake256(label) => Ok(shake_bits(label, nbits)),
+            Data::Shake256(label) => {
+                // A recipe's length comes from the file: checked against
+                // the memory available before it is allocated.
+                crate::files::space::check_bits(nbits as u128, "a SHAKE256 recipe")
+                    .map_err(|e| e.to_string())?;
+                Ok(shake_bits(label, nbits))
+            }
         }
     }
 }

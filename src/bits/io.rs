@@ -25,13 +25,42 @@ pub fn open_input(path: &Path) -> Result<Box<dyn Read + Send>, Error> {
     }
 }
 
-/// Reads a whole bit file (or its first `limit` bits).
+/// The most bits a regular file of `format` can hold, from its size
+/// (packed: 8 per byte, hex: 4, ASCII: 1); `None` for standard input or
+/// anything whose size is unknown.
+pub fn max_bits_in(path: &Path, format: Format) -> Option<u64> {
+    if path.as_os_str() == "-" {
+        return None;
+    }
+    let md = std::fs::metadata(path).ok()?;
+    if !md.is_file() {
+        return None;
+    }
+    let per_byte = match format {
+        Format::Packed => 8,
+        Format::Hex => 4,
+        Format::Ascii => 1,
+    };
+    Some(md.len().saturating_mul(per_byte))
+}
+
+/// Reads a whole bit file (or its first `limit` bits). A limit the file
+/// cannot hold is refused before anything is allocated.
 pub fn read_bits(
     path: &Path,
     format: Format,
     order: BitOrder,
     limit: Option<usize>,
 ) -> Result<Bits, Error> {
+    if let (Some(n), Some(max)) = (limit, max_bits_in(path, format)) {
+        if n as u64 > max {
+            return Err(Error::new(ErrorKind::TooShort {
+                wanted: n as u64,
+                available: max,
+            })
+            .in_file(path));
+        }
+    }
     let r = open_input(path)?;
     let mut reader = BlockReader::new(r, path, format, order);
     let mut out = Bits::new();

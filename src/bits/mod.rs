@@ -394,6 +394,20 @@ impl fmt::Debug for Bits {
     }
 }
 
+/// Panics with expected and actual lengths when they differ (caller bug).
+#[inline]
+pub fn check_len(what: &str, expected: usize, actual: usize) {
+    if expected != actual {
+        length_mismatch(what, expected, actual)
+    }
+}
+
+#[cold]
+#[inline(never)]
+fn length_mismatch(what: &str, expected: usize, actual: usize) -> ! {
+    panic!("{what}: expected {expected} bits, got {actual}")
+}
+
 #[inline]
 pub(crate) fn hex_value(c: u8) -> Option<u8> {
     match c {

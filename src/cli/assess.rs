@@ -90,6 +90,25 @@ struct InputOpts {
     /// Also draw a picture of the results into this SVG file.
     #[arg(long, value_name = "FILE.svg")]
     plot: Option<PathBuf>,
+    /// Replace an existing file at --plot even if sluice did not draw it
+    #[arg(long)]
+    force: bool,
+}
+
+impl InputOpts {
+    /// Refuses a plot path that is the input or a file sluice did not
+    /// draw (without --force), before any work.
+    fn check_plot(&self) -> anyhow::Result<()> {
+        if let Some(p) = &self.plot {
+            common::check_output(
+                p,
+                sluice::files::Kind::Plot,
+                &[(Some(self.file.as_path()), "input")],
+                self.force,
+            )?;
+        }
+        Ok(())
+    }
 }
 
 #[derive(Args)]
@@ -165,6 +184,7 @@ struct RawReport {
 }
 
 fn run_raw(a: RawArgs) -> anyhow::Result<ExitCode> {
+    a.input.check_plot()?;
     if let Some(h) = a.claimed_entropy {
         if !(h > 0.0 && h <= 1.0) {
             bail!("--claimed-entropy {h}: must be in (0, 1] bits per raw bit");
@@ -244,7 +264,8 @@ fn run_raw(a: RawArgs) -> anyhow::Result<ExitCode> {
         caution: CAUTION_RAW,
     };
     if let Some(p) = &a.input.plot {
-        plot_raw(p, &report).with_context(|| format!("drawing {}", p.display()))?;
+        common::write_svg(p, a.input.force, |svg| plot_raw(svg, &report))
+            .with_context(|| format!("drawing {}", p.display()))?;
     }
     if a.input.json {
         common::print_json(&report)?;
@@ -361,13 +382,16 @@ struct OutputReport {
 }
 
 fn run_output(a: OutputArgs) -> anyhow::Result<ExitCode> {
+    a.input.check_plot()?;
     let bits = read_input(&a.input)?;
     let n = bits.len();
     let (count, len) = match (a.sequences, a.sequence_bits) {
         (Some(0), _) => bail!("--sequences 0: at least one sequence is needed"),
         (_, Some(0)) => bail!("--sequence-bits 0: a sequence needs bits"),
         (Some(s), Some(b)) => (s, b),
-        (Some(s), None) => (s, n / s),
+        // The documented default length: 1,000,000 bits, or the whole
+        // input if shorter (issue 15 item 9: it was input / N).
+        (Some(s), None) => (s, n.min(1_000_000)),
         (None, Some(b)) => (n / b, b),
         (None, None) => {
             let b = n.min(1_000_000);
@@ -381,6 +405,14 @@ fn run_output(a: OutputArgs) -> anyhow::Result<ExitCode> {
             count as u128 * len as u128
         );
     }
+    // The battery holds a few words per bit of a sequence (the spectral
+    // test's transform: 16 bytes per bit, bounded above), one sequence per
+    // worker: checked before anything is allocated.
+    let workers = rayon::current_num_threads().clamp(1, count) as u128;
+    sluice::files::space::check_memory(
+        workers * len as u128 * 16,
+        &format!("the SP 800-22 battery on {workers} sequence(s) of {len} bits at once"),
+    )?;
     let cfg = sp800_22::Config::default();
     let pb = common::progress(count as u64, "running the SP 800-22 battery");
     let reports: Vec<Vec<TestReport>> = (0..count)
@@ -394,7 +426,8 @@ fn run_output(a: OutputArgs) -> anyhow::Result<ExitCode> {
     pb.finish_and_clear();
     let report = summarise_output(&a.input.file, n, count, len, reports);
     if let Some(p) = &a.input.plot {
-        plot_output(p, &report).with_context(|| format!("drawing {}", p.display()))?;
+        common::write_svg(p, a.input.force, |svg| plot_output(svg, &report))
+            .with_context(|| format!("drawing {}", p.display()))?;
     }
     if a.input.json {
         common::print_json(&report)?;
@@ -599,9 +632,9 @@ fn plot_err<E: std::fmt::Debug>(e: E) -> anyhow::Error {
     anyhow::anyhow!("{e:?}")
 }
 
-fn plot_output(path: &Path, r: &OutputReport) -> anyhow::Result<()> {
+fn plot_output(svg: &mut String, r: &OutputReport) -> anyhow::Result<()> {
     use plotters::prelude::*;
-    let root = SVGBackend::new(path, (1000, 760)).into_drawing_area();
+    let root = SVGBackend::with_string(svg, (1000, 760)).into_drawing_area();
     root.fill(&WHITE).map_err(plot_err)?;
     let (top, bottom) = root.split_vertically(360);
 
@@ -773,9 +806,9 @@ fn plot_output(path: &Path, r: &OutputReport) -> anyhow::Result<()> {
     Ok(())
 }
 
-fn plot_raw(path: &Path, r: &RawReport) -> anyhow::Result<()> {
+fn plot_raw(svg: &mut String, r: &RawReport) -> anyhow::Result<()> {
     use plotters::prelude::*;
-    let root = SVGBackend::new(path, (900, 480)).into_drawing_area();
+    let root = SVGBackend::with_string(svg, (900, 480)).into_drawing_area();
     root.fill(&WHITE).map_err(plot_err)?;
     let est: Vec<(&str, f64)> = r
         .assessment

@@ -5,7 +5,7 @@ use super::extract::{Common, DesignArg, ExtractorArg, Layout, OneBitArg, Trevisa
 use super::plan::{plan_error, speed_model, SecurityArgs};
 use anyhow::{bail, Context};
 use sluice::extract::Extractor;
-use sluice::pipeline::atomic::AtomicFile;
+use sluice::files::{AtomicFile, Kind, Replace};
 use sluice::pipeline::receipt::{self, Receipt};
 use sluice::pipeline::{self, Report};
 use sluice::plan::compose;
@@ -346,6 +346,7 @@ impl AutoPlan {
     }
 
     /// Writes the receipt (owner-only, atomically).
+    #[allow(clippy::too_many_arguments)]
     pub fn write_receipt(
         &self,
         path: &Path,
@@ -354,6 +355,7 @@ impl AutoPlan {
         c: &Common,
         output_digest: Option<String>,
         seed: Option<(&str, &str)>,
+        force: bool,
     ) -> anyhow::Result<()> {
         let b = &self.input.budget;
         let mut notes = vec![
@@ -426,7 +428,7 @@ impl AutoPlan {
             output_digest,
             notes,
         };
-        let mut f = AtomicFile::create(path, true)?;
+        let mut f = AtomicFile::create(path, Kind::Receipt, Replace::forced(force))?;
         serde_json::to_writer_pretty(&mut f, &r)?;
         f.write_all(b"\n")?;
         f.commit()

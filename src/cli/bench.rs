@@ -448,7 +448,12 @@ fn tune(a: &BenchArgs) -> anyhow::Result<ExitCode> {
     if let Some(dir) = path.parent() {
         std::fs::create_dir_all(dir)?;
     }
-    std::fs::write(&path, serde_json::to_string_pretty(&file)? + "\n")?;
+    sluice::files::atomic::write_all(
+        &path,
+        sluice::files::Kind::Thresholds,
+        sluice::files::Replace::SameKind,
+        (serde_json::to_string_pretty(&file)? + "\n").as_bytes(),
+    )?;
     if a.json {
         common::print_json(&serde_json::json!({
             "thresholds": t,

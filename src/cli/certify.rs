@@ -126,6 +126,11 @@ pub struct CertifyArgs {
     /// Print one JSON document for scripts.
     #[arg(long)]
     json: bool,
+
+    /// Replace existing output files (-o, --raw-out, --plot) even if they
+    /// are not earlier outputs of sluice (an input is never replaced).
+    #[arg(long)]
+    force: bool,
 }
 
 /// Protocol parameters with their origin.
@@ -161,44 +166,13 @@ const COUNT_KEYS: [&str; 2] = ["test-rounds", "wins"];
 /// Reads `key = value` lines ('#' comments, blank lines ignored); returns
 /// them with the BLAKE3 hex digest of the file.
 fn read_key_values(path: &Path, allowed: &[&str]) -> Result<(KeyValues, String)> {
-    let bytes = std::fs::read(path).with_context(|| format!("cannot read {}", path.display()))?;
+    // A parameters or counts file is a few lines: refused above 1 MiB
+    // before it is read (issue 15 item 9); parsed by `sluice::files::keyvalue`.
+    let bytes = sluice::files::keyvalue::read_limited(path, 1 << 20, "parameters or counts file")
+        .with_context(|| format!("cannot read {}", path.display()))?;
     let digest = blake3::hash(&bytes).to_hex().to_string();
-    let text = String::from_utf8(bytes).map_err(|e| {
-        anyhow!(
-            "{}: byte {}: not UTF-8 text",
-            path.display(),
-            e.utf8_error().valid_up_to()
-        )
-    })?;
-    let mut out: Vec<(String, String, usize)> = Vec::new();
-    for (i, raw) in text.lines().enumerate() {
-        let line = raw.split('#').next().unwrap_or("").trim();
-        if line.is_empty() {
-            continue;
-        }
-        let Some((k, v)) = line.split_once('=') else {
-            bail!(
-                "{}: line {}: {:?} is not of the form key = value",
-                path.display(),
-                i + 1,
-                raw
-            );
-        };
-        let (k, v) = (k.trim().to_string(), v.trim().to_string());
-        if !allowed.contains(&k.as_str()) {
-            bail!(
-                "{}: line {}: unknown key {:?}; the keys are {}",
-                path.display(),
-                i + 1,
-                k,
-                allowed.join(", ")
-            );
-        }
-        if out.iter().any(|(o, _, _)| *o == k) {
-            bail!("{}: line {}: {:?} is given twice", path.display(), i + 1, k);
-        }
-        out.push((k, v, i + 1));
-    }
+    let out = sluice::files::keyvalue::parse(&bytes, allowed)
+        .map_err(|e| anyhow!("{}: {e}", path.display()))?;
     Ok((out, digest))
 }
 
@@ -215,17 +189,9 @@ fn parse_count(s: &str) -> std::result::Result<u64, String> {
 }
 
 fn parse_num<T: std::str::FromStr>(path: &Path, line: usize, key: &str, v: &str) -> Result<T> {
-    let v2 = v.replace('_', "");
     // Accept integers written as 1e8 too.
-    if let Ok(x) = v2.parse::<T>() {
+    if let Some(x) = sluice::files::keyvalue::parse_number(v) {
         return Ok(x);
-    }
-    if let Ok(f) = v2.parse::<f64>() {
-        if f.fract() == 0.0 && (0.0..1.8e19).contains(&f) {
-            if let Ok(x) = format!("{}", f as u64).parse::<T>() {
-                return Ok(x);
-            }
-        }
     }
     bail!(
         "{}: line {line}: {key} = {v:?} is not a number of the right kind",
@@ -413,7 +379,15 @@ fn run_plan(args: &CertifyArgs) -> Result<ExitCode> {
     let res = eat_plan(&p)?;
     let mut plot = None;
     if let Some(path) = &args.plot {
-        draw_plot(path, &p, args.completeness)?;
+        super::common::check_output(
+            path,
+            sluice::files::Kind::Plot,
+            &[(args.params.as_deref(), "parameters file")],
+            args.force,
+        )?;
+        super::common::write_svg(path, args.force, |svg| {
+            draw_plot(svg, &p, args.completeness)
+        })?;
         plot = Some(path.display().to_string());
     }
     let report = PlanReport {
@@ -539,7 +513,7 @@ fn neighbours(gamma: f64) -> (f64, f64) {
     }
 }
 
-fn draw_plot(path: &Path, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
+fn draw_plot(svg: &mut String, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
     use plotters::prelude::*;
     let (lo, hi) = neighbours(p.gamma);
     let mut gammas = [lo, p.gamma, hi];
@@ -563,9 +537,8 @@ fn draw_plot(path: &Path, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
         .flat_map(|(_, s)| s.iter().map(|&(_, y)| y))
         .fold(0.0f64, f64::max);
     let ymax = (ymax * 1.1).clamp(0.05, 1.0);
-    let tmp = temp_path(path);
     {
-        let root = SVGBackend::new(&tmp, (960, 600)).into_drawing_area();
+        let root = SVGBackend::with_string(svg, (960, 600)).into_drawing_area();
         root.fill(&WHITE).map_err(|e| anyhow!("plot: {e}"))?;
         let delta_text = match eps_c {
             Some(e) => format!("delta for completeness error {e:e}"),
@@ -616,8 +589,6 @@ fn draw_plot(path: &Path, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
             .map_err(|e| anyhow!("plot: {e}"))?;
         root.present().map_err(|e| anyhow!("plot: {e}"))?;
     }
-    std::fs::rename(&tmp, path)
-        .with_context(|| format!("cannot move the plot into place at {}", path.display()))?;
     Ok(())
 }
 
@@ -656,40 +627,26 @@ impl<W: Write> Write for DigestWriter<W> {
     }
 }
 
-/// A sink that only digests.
-struct Discard;
+/// The raw output being written (through the one atomic writer), or
+/// nothing but the digest.
+enum RawSink {
+    File(sluice::files::AtomicFile),
+    Discard,
+}
 
-impl Write for Discard {
+impl Write for RawSink {
     fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
-        Ok(buf.len())
+        match self {
+            RawSink::File(f) => f.write(buf),
+            RawSink::Discard => Ok(buf.len()),
+        }
     }
     fn flush(&mut self) -> std::io::Result<()> {
-        Ok(())
+        match self {
+            RawSink::File(f) => f.flush(),
+            RawSink::Discard => Ok(()),
+        }
     }
-}
-
-/// `DIR/.NAME.tmp-PID` next to `path`.
-fn temp_path(path: &Path) -> PathBuf {
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().to_string())
-        .unwrap_or_else(|| "out".into());
-    path.with_file_name(format!(".{name}.tmp-{}", std::process::id()))
-}
-
-/// Creates a new file; owner-only permissions when `private`.
-fn create_file(path: &Path, private: bool) -> Result<File> {
-    let mut o = std::fs::OpenOptions::new();
-    o.write(true).create(true).truncate(true);
-    #[cfg(unix)]
-    if private {
-        use std::os::unix::fs::OpenOptionsExt;
-        o.mode(0o600);
-    }
-    #[cfg(not(unix))]
-    let _ = private;
-    o.open(path)
-        .with_context(|| format!("cannot create {}", path.display()))
 }
 
 /// What was read from the record.
@@ -697,14 +654,16 @@ struct RecordRead {
     summary: Summary,
     info: RecordInfo,
     raw_digest: Option<String>,
-    raw_tmp: Option<PathBuf>,
+    /// The raw output, written but not yet renamed into place (dropped,
+    /// it leaves nothing behind).
+    raw_file: Option<sluice::files::AtomicFile>,
 }
 
 fn read_record(
     path: &Path,
     n_expected: u64,
     gamma: f64,
-    raw_out: Option<&Path>,
+    raw_out: Option<(&Path, sluice::files::Replace)>,
 ) -> Result<RecordRead> {
     let hasher = Rc::new(RefCell::new(blake3::Hasher::new()));
     let count = Rc::new(RefCell::new(0u64));
@@ -738,14 +697,13 @@ fn read_record(
     let mut tally = Tally::new();
     let mut pairs = Bits::new();
 
-    let raw_tmp = raw_out.map(temp_path);
     let digest = DataDigest::new(2 * n_expected);
-    let sink: Box<dyn Write> = match &raw_tmp {
-        Some(t) => Box::new(std::io::BufWriter::with_capacity(
-            1 << 20,
-            create_file(t, true)?,
-        )),
-        None => Box::new(Discard),
+    let sink = match raw_out {
+        Some((dest, replace)) => RawSink::File(
+            sluice::files::AtomicFile::create(dest, sluice::files::Kind::RawOutput, replace)
+                .with_context(|| format!("cannot create {}", dest.display()))?,
+        ),
+        None => RawSink::Discard,
     };
     let mut writer = BitWriter::new(
         DigestWriter {
@@ -775,17 +733,10 @@ fn read_record(
         Ok(())
     })();
     pb.finish_and_clear();
-    if let Err(e) = result {
-        if let Some(t) = &raw_tmp {
-            let _ = std::fs::remove_file(t);
-        }
-        return Err(e);
-    }
+    // On an error the writer is dropped: its temporary file goes with it.
+    result?;
     let rounds = tally.rounds();
     if rounds != n_expected {
-        if let Some(t) = &raw_tmp {
-            let _ = std::fs::remove_file(t);
-        }
         bail!(
             "{}: the record holds {rounds} rounds, but N_rounds = {n_expected} was fixed before the run",
             path.display()
@@ -794,7 +745,10 @@ fn read_record(
     let dw = writer.finish().context("cannot write the raw output")?;
     let DigestWriter { mut inner, digest } = dw;
     inner.flush().context("cannot write the raw output")?;
-    drop(inner);
+    let raw_file = match inner {
+        RawSink::File(f) => Some(f),
+        RawSink::Discard => None,
+    };
     let raw_digest = digest.finish_hex();
     let summary = tally.summary(gamma)?;
     let file_digest = hasher.borrow().finalize().to_hex().to_string();
@@ -810,7 +764,7 @@ fn read_record(
             test_rounds: 0,
         },
         raw_digest: Some(raw_digest),
-        raw_tmp,
+        raw_file,
     })
 }
 
@@ -913,10 +867,35 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
         }
     };
 
-    let (summary, mut info, raw_digest, raw_tmp) = match (&args.record, &args.counts) {
+    // Outputs are checked before the record is read: never an input, never
+    // each other, never a file that is not an earlier output of the same
+    // kind unless --force.
+    let inputs = [
+        (args.record.as_deref(), "record"),
+        (args.counts.as_deref(), "counts file"),
+        (args.raw_in.as_deref(), "raw input"),
+        (args.params.as_deref(), "parameters file"),
+    ];
+    if let Some(o) = &args.output {
+        let mut others = inputs.to_vec();
+        others.push((args.raw_out.as_deref(), "raw output"));
+        super::common::check_output(o, sluice::files::Kind::Certificate, &others, args.force)?;
+    }
+    if let Some(o) = &args.raw_out {
+        let mut others = inputs.to_vec();
+        others.push((args.output.as_deref(), "certificate"));
+        super::common::check_output(o, sluice::files::Kind::RawOutput, &others, args.force)?;
+    }
+    let replace = sluice::files::Replace::forced(args.force);
+    let (summary, mut info, raw_digest, raw_file) = match (&args.record, &args.counts) {
         (Some(path), _) => {
-            let rr = read_record(path, n, gamma, args.raw_out.as_deref())?;
-            (rr.summary, rr.info, rr.raw_digest, rr.raw_tmp)
+            let rr = read_record(
+                path,
+                n,
+                gamma,
+                args.raw_out.as_deref().map(|p| (p, replace)),
+            )?;
+            (rr.summary, rr.info, rr.raw_digest, rr.raw_file)
         }
         (None, Some(path)) => {
             let s = read_counts(path, gamma)?;
@@ -947,23 +926,14 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
         (None, None) => unreachable!(),
     };
     info.test_rounds = summary.n_test;
-    let cleanup = |t: &Option<PathBuf>| {
-        if let Some(t) = t {
-            let _ = std::fs::remove_file(t);
-        }
-    };
 
     // The figure.
     let (accepted, k, eps_s, eps_cert, eps_cert_source, d_pub, terms) = match mode {
         Mode::EntropyAccumulation => {
             let p = eat_p.unwrap();
-            let res = match eat_certify(&p, &summary, &public) {
-                Ok(r) => r,
-                Err(e) => {
-                    cleanup(&raw_tmp);
-                    return Err(e.into());
-                }
-            };
+            // On an error the raw output's writer is dropped with nothing
+            // renamed.
+            let res = eat_certify(&p, &summary, &public)?;
             let terms = ResultTerms {
                 bound_bits: res.bound_bits,
                 first_order_bits: Some(res.first_order_bits),
@@ -988,13 +958,7 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
         Mode::IidEstimate => {
             let eps_est = r.eps_est.unwrap();
             let d_pub = sluice::certify::eat::disclosure_charge(&public, &summary);
-            let (bits, w_l) = match iid_estimate(n, summary.n_test, summary.wins, eps_est, d_pub) {
-                Ok(v) => v,
-                Err(e) => {
-                    cleanup(&raw_tmp);
-                    return Err(e.into());
-                }
-            };
+            let (bits, w_l) = iid_estimate(n, summary.n_test, summary.wins, eps_est, d_pub)?;
             let bound = bits + d_pub as f64;
             let k = if bits > 0.0 { bits.floor() as u64 } else { 0 };
             let zero = (k == 0).then(|| {
@@ -1053,19 +1017,18 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
 
     // Files: the raw output only on acceptance; the certificate always
     // (an aborted run's certificate says 0 bits and "accepted": false).
-    let mut raw_file = None;
-    if let (Some(tmp), Some(dest)) = (&raw_tmp, &args.raw_out) {
+    let mut raw_file_name = None;
+    if let (Some(f), Some(dest)) = (raw_file, &args.raw_out) {
         if accepted {
-            std::fs::rename(tmp, dest).with_context(|| {
+            f.commit().with_context(|| {
                 format!(
                     "cannot move the raw output into place at {}",
                     dest.display()
                 )
             })?;
-            raw_file = Some(dest.display().to_string());
-        } else {
-            let _ = std::fs::remove_file(tmp);
+            raw_file_name = Some(dest.display().to_string());
         }
+        // Not accepted: dropped, nothing is written.
     }
     let mut certificate_file = None;
     if let Some(dest) = &args.output {
@@ -1114,19 +1077,17 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
         };
         cert.validate()
             .map_err(|e| anyhow!("internal error, certificate does not validate: {e}"))?;
-        let tmp = temp_path(dest);
-        {
-            let mut f = create_file(&tmp, false)?;
-            f.write_all(cert.to_json_string().as_bytes())?;
-            f.write_all(b"\n")?;
-            f.sync_all()?;
-        }
-        std::fs::rename(&tmp, dest).with_context(|| {
-            format!(
-                "cannot move the certificate into place at {}",
-                dest.display()
-            )
-        })?;
+        // Owner-only, through the one atomic writer (it holds digests of
+        // the raw data).
+        let mut text = cert.to_json_string().into_bytes();
+        text.push(b'\n');
+        sluice::files::atomic::write_all(dest, sluice::files::Kind::Certificate, replace, &text)
+            .with_context(|| {
+                format!(
+                    "cannot move the certificate into place at {}",
+                    dest.display()
+                )
+            })?;
         certificate_file = Some(dest.display().to_string());
     }
 
@@ -1148,7 +1109,7 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
         warnings: &summary.input_warnings,
         parameters_file: r.from_file.as_ref().map(|(p, _)| p.display().to_string()),
         certificate_file,
-        raw_file,
+        raw_file: raw_file_name,
         cautions: cautions(mode).to_vec(),
     };
     if args.json {

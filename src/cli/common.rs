@@ -183,3 +183,45 @@ pub const TWO_SOURCE_CAUTION: &str =
 pub fn two_source_cautions() -> [&'static str; 3] {
     [CAUTIONS[0], CAUTIONS[3], TWO_SOURCE_CAUTION]
 }
+
+/// Refuses an output that is one of `others` (the command's inputs and
+/// other outputs, with their roles) or an existing file that is not an
+/// earlier output of the same kind (unless `force`). Called before any
+/// work, so a refusal costs nothing (and charges no seed).
+pub fn check_output(
+    output: &std::path::Path,
+    kind: sluice::files::Kind,
+    others: &[(Option<&std::path::Path>, &str)],
+    force: bool,
+) -> anyhow::Result<()> {
+    let others: Vec<(&std::path::Path, &str)> = others
+        .iter()
+        .filter_map(|(p, role)| p.map(|p| (p, *role)))
+        .collect();
+    sluice::files::guard::check_output(
+        output,
+        kind,
+        &others,
+        sluice::files::Replace::forced(force),
+    )?;
+    Ok(())
+}
+
+/// Draws an SVG into memory with `draw`, then writes it through the atomic
+/// writer (a plot never appears half drawn, and never replaces a file that
+/// is not an earlier plot without `force`).
+pub fn write_svg(
+    path: &std::path::Path,
+    force: bool,
+    draw: impl FnOnce(&mut String) -> anyhow::Result<()>,
+) -> anyhow::Result<()> {
+    let mut svg = String::new();
+    draw(&mut svg)?;
+    sluice::files::atomic::write_all(
+        path,
+        sluice::files::Kind::Plot,
+        sluice::files::Replace::forced(force),
+        svg.as_bytes(),
+    )?;
+    Ok(())
+}

@@ -10,7 +10,8 @@ use super::common;
 use anyhow::Context;
 use sluice::bits::{BitOrder, Bits, Format};
 use sluice::extract::{Extractor, Toeplitz};
-use sluice::pipeline::{atomic::AtomicFile, BitFile, Run, Source};
+use sluice::files::{AtomicFile, Kind, Replace};
+use sluice::pipeline::{BitFile, Run, Source};
 use std::io::Write;
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -28,6 +29,9 @@ pub struct DemoArgs {
     /// Print a JSON report
     #[arg(long)]
     pub json: bool,
+    /// Replace files in the folder even if they are not earlier demo files
+    #[arg(long)]
+    pub force: bool,
 }
 
 /// Probability of a one in the simulated raw bits.
@@ -71,7 +75,7 @@ pub fn run(a: DemoArgs) -> anyhow::Result<ExitCode> {
 
     // 1. One run of the simulated device.
     let raw = simulate(n);
-    let mut f = AtomicFile::create(&raw_path, false)?;
+    let mut f = AtomicFile::create(&raw_path, Kind::DemoRaw, Replace::forced(a.force))?;
     f.write_all(&raw.to_packed(BitOrder::Msb))?;
     f.commit()?;
 
@@ -103,7 +107,7 @@ pub fn run(a: DemoArgs) -> anyhow::Result<ExitCode> {
             .map_err(|e| anyhow::anyhow!("operating-system random source: {e}"))?;
     }
     let seed = Bits::from_packed(&seed_bytes, d, BitOrder::Msb)?;
-    let mut f = AtomicFile::create(&seed_path, true)?;
+    let mut f = AtomicFile::create(&seed_path, Kind::SeedFile, Replace::forced(a.force))?;
     f.write_all(&seed.to_packed(BitOrder::Msb))?;
     f.commit()?;
 
@@ -123,7 +127,7 @@ pub fn run(a: DemoArgs) -> anyhow::Result<ExitCode> {
             order: BitOrder::Msb,
         },
     };
-    let report = run.execute(|_| {})?;
+    let report = run.execute_replacing(Replace::forced(a.force), |_| {})?;
     let secs = t0.elapsed().as_secs_f64();
     let out = sluice::bits::io::read_bits(&out_path, Format::Packed, BitOrder::Msb, Some(m))?;
 

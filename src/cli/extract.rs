@@ -10,6 +10,10 @@ use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
+/// The longest Trevisan output above the input length accepted (for tests
+/// of the definition).
+const TREVISAN_TEST_OUTPUT_BITS: usize = 4096;
+
 /// Extractor names on the command line.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
 pub enum ExtractorArg {
@@ -129,6 +133,50 @@ pub struct ExtractArgs {
     pub receipt_output_digest: bool,
     #[command(flatten)]
     pub ledgered: LedgerUse,
+    /// Replace an existing output or receipt file even if it is not an
+    /// earlier output of sluice (an input is never replaced)
+    #[arg(long)]
+    pub force: bool,
+}
+
+impl ExtractArgs {
+    /// The receipt's path when the run writes one: --receipt, else
+    /// OUT.receipt.json (None when the output is standard output and no
+    /// --receipt is given).
+    pub fn receipt_path(&self) -> Option<PathBuf> {
+        match (&self.receipt, self.output.as_os_str() == "-") {
+            (Some(r), _) => Some(r.clone()),
+            (None, false) => {
+                let mut s = self.output.clone().into_os_string();
+                s.push(".receipt.json");
+                Some(PathBuf::from(s))
+            }
+            (None, true) => None,
+        }
+    }
+
+    /// Refuses, before any work, an output or receipt that names an input
+    /// or each other, or an existing file that is not an earlier output of
+    /// the same kind (without --force).
+    pub fn check_outputs(&self, receipt: Option<&Path>) -> anyhow::Result<()> {
+        use sluice::files::Kind;
+        let c = &self.common;
+        let inputs = [
+            (Some(c.input.as_path()), "input"),
+            (c.seed_file.as_deref(), "seed file"),
+            (c.second_source.as_deref(), "second source"),
+            (self.security.certificate.as_deref(), "certificate"),
+        ];
+        let mut others = inputs.to_vec();
+        others.push((receipt, "receipt"));
+        common::check_output(&self.output, Kind::ExtractOutput, &others, self.force)?;
+        if let Some(r) = receipt {
+            let mut others = inputs.to_vec();
+            others.push((Some(self.output.as_path()), "output"));
+            common::check_output(r, Kind::Receipt, &others, self.force)?;
+        }
+        Ok(())
+    }
 }
 
 /// Options of a run whose seed is accounted in the ledger.
@@ -356,6 +404,12 @@ pub fn resolve(c: &Common, l: &Layout, stored: Option<&Bits>) -> anyhow::Result<
     if m == 0 {
         bail!("--output-bits 0: the output must hold at least 1 bit");
     }
+    // One block in, one block out, in memory at once: checked before
+    // anything is allocated.
+    sluice::files::space::check_bits(
+        n as u128 + m as u128,
+        &format!("a block of {n} input bits and {m} output bits"),
+    )?;
     let plan: Box<dyn Extractor> = match l.extractor {
         ExtractorArg::Toeplitz => {
             if m > n {
@@ -374,7 +428,15 @@ pub fn resolve(c: &Common, l: &Layout, stored: Option<&Bits>) -> anyhow::Result<
         }
         ExtractorArg::Trevisan => {
             // The function is defined for any m (spec/trevisan.md 2); the
-            // planner keeps m below the min-entropy.
+            // planner keeps m below the min-entropy. An output longer than
+            // the input only tests the definition (the published vectors
+            // have such cases), so it is bounded (issue 15 item 9: a
+            // receipt or option asking for 2^40 bits must not allocate).
+            if m > n.max(TREVISAN_TEST_OUTPUT_BITS) {
+                bail!(
+                    "--output-bits {m}: a Trevisan output longer than its {n}-bit input cannot be near-uniform; outputs above n are allowed only up to {TREVISAN_TEST_OUTPUT_BITS} bits, to test the definition"
+                );
+            }
             let t = l
                 .trevisan
                 .as_ref()
@@ -452,6 +514,11 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
     }
     let c = &a.common;
     let auto_mode = c.output_bits.is_none() && c.extractor.is_none() || a.security.any_given();
+    let receipt_path = if auto_mode { a.receipt_path() } else { None };
+    if auto_mode && receipt_path.is_none() {
+        bail!("the output goes to standard output: give --receipt FILE for the receipt");
+    }
+    a.check_outputs(receipt_path.as_deref())?;
     let (layout, auto) = if auto_mode {
         let (l, p) = super::auto::plan_run(c, &a.security)?;
         (l, Some(p))
@@ -472,29 +539,18 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
         seed: &r.seed,
         output,
     };
-    let report = run.execute(|done| pb.set_position(done))?;
+    let report = run.execute_replacing(sluice::files::Replace::forced(a.force), |done| {
+        pb.set_position(done)
+    })?;
     pb.finish_and_clear();
-    let mut receipt_path = None;
-    if let Some(p) = &auto {
-        let path = match (&a.receipt, a.output.as_os_str() == "-") {
-            (Some(r), _) => r.clone(),
-            (None, false) => {
-                let mut s = a.output.clone().into_os_string();
-                s.push(".receipt.json");
-                PathBuf::from(s)
-            }
-            (None, true) => {
-                bail!("the output went to standard output: give --receipt FILE for the receipt")
-            }
-        };
+    if let (Some(p), Some(path)) = (&auto, &receipt_path) {
         let out_digest = if a.receipt_output_digest && a.output.as_os_str() != "-" {
             let f = c.files.output(&a.output);
             Some(pipeline::digest_prefix(&f, report.output_bits)?)
         } else {
             None
         };
-        p.write_receipt(&path, r.plan.as_ref(), &report, c, out_digest, None)?;
-        receipt_path = Some(path);
+        p.write_receipt(path, r.plan.as_ref(), &report, c, out_digest, None, a.force)?;
     }
     if c.json {
         let j = ExtractJson {

@@ -66,11 +66,13 @@ enum Cmd {
         #[arg(long)]
         json: bool,
     },
-    /// Check the chain, the record kinds and every rule; exit 0 only when
-    /// all hold
+    /// Check the chain, the record kinds, every rule and the head file;
+    /// exit 0 only when all hold
     Verify {
-        /// Also require this head digest (kept elsewhere)
-        #[arg(long, value_name = "HEX")]
+        /// Also require the head printed by an earlier `ledger verify` and
+        /// kept elsewhere (LINES:DIGEST, or DIGEST alone): the journal must
+        /// hold that line unchanged (it may have grown since)
+        #[arg(long, value_name = "LINES:HEX")]
         head: Option<String>,
         /// Print JSON
         #[arg(long)]
@@ -91,7 +93,21 @@ enum Cmd {
         #[arg(long)]
         json: bool,
     },
-    /// Cut off a torn last line (only that), after saving a copy
+    /// Resolve an open reservation whose run is gone and whose output does
+    /// not exist: record the use as abandoned (it stays charged)
+    Abandon {
+        /// The use identifier (`ledger verify` lists open ones)
+        #[arg(value_name = "USE")]
+        use_id: String,
+        /// Why (free text, recorded)
+        #[arg(long, default_value = "the run ended without its output")]
+        reason: String,
+        /// Print JSON
+        #[arg(long)]
+        json: bool,
+    },
+    /// Cut off an unterminated last line (only that, and only past the head
+    /// file), after saving a copy
     Repair {
         /// Print JSON
         #[arg(long)]
@@ -104,6 +120,9 @@ struct VerifyJson {
     ok: bool,
     records: u64,
     head: String,
+    /// `LINES:DIGEST`, to keep elsewhere and give to `--head` later.
+    head_line: String,
+    orphan_seed_files: Vec<String>,
     problem: Option<String>,
     first_bad_line: Option<u64>,
     unresolved_uses: Vec<sluice::ledger::UseState>,
@@ -162,7 +181,7 @@ pub fn run(a: LedgerArgs) -> anyhow::Result<ExitCode> {
             Ok(ExitCode::SUCCESS)
         }
         Cmd::Verify { head, json } => {
-            if !ledger.exists() {
+            if !ledger.exists() && !ledger.head_path().exists() {
                 bail!(
                     "{}: no journal here (nothing has been recorded in this ledger)",
                     ledger.journal_path().display()
@@ -172,18 +191,21 @@ pub fn run(a: LedgerArgs) -> anyhow::Result<ExitCode> {
             let mut problem = r.problem.as_ref().map(|p| p.to_string());
             if problem.is_none() {
                 if let Some(h) = &head {
-                    if h != &r.state.head {
-                        problem = Some(format!(
-                            "head digest is {}, not the {h} kept elsewhere: the journal was rewritten or lost records",
-                            r.state.head
-                        ));
-                    }
+                    problem = check_kept_head(&r, h).err();
                 }
             }
+            let known = &r.state.seeds;
+            let orphans: Vec<String> = ledger
+                .stored_seed_ids()
+                .into_iter()
+                .filter(|id| !known.contains_key(id))
+                .collect();
             let v = VerifyJson {
                 ok: problem.is_none(),
                 records: r.state.lines,
                 head: r.state.head.clone(),
+                head_line: format!("{}:{}", r.state.lines, r.state.head),
+                orphan_seed_files: orphans,
                 first_bad_line: r.problem.as_ref().and_then(|p| p.line()),
                 problem,
                 unresolved_uses: r.state.unresolved().cloned().collect(),
@@ -194,15 +216,25 @@ pub fn run(a: LedgerArgs) -> anyhow::Result<ExitCode> {
             } else {
                 match &v.problem {
                     None => println!(
-                        "ok: {} records, chain intact, every rule holds; head {}",
-                        v.records, v.head
+                        "ok: {} records, chain intact, every rule holds, head file agrees; head {} (keep it elsewhere and check later with --head {})",
+                        v.records, v.head, v.head_line
                     ),
                     Some(p) => println!("FAILED: {p}"),
                 }
                 for u in &v.unresolved_uses {
+                    let live = if ledger.run_in_progress(&u.use_id) {
+                        "its run is still going"
+                    } else {
+                        "its run is gone; once its output is known not to exist, resolve it with `sluice ledger abandon USE`"
+                    };
                     println!(
-                        "flag: use {} of seed {} reserved at line {} never committed (stays charged: {:e})",
+                        "flag: use {} of seed {} reserved at line {} never committed (stays charged: {:e}); {live}",
                         u.use_id, u.seed, u.reserved_line, u.error
+                    );
+                }
+                for id in &v.orphan_seed_files {
+                    println!(
+                        "flag: the seed store holds {id}.seed.json, which no seed-created record names (records were removed, or the file was planted); it cannot be used"
                     );
                 }
             }
@@ -211,6 +243,66 @@ pub fn run(a: LedgerArgs) -> anyhow::Result<ExitCode> {
             } else {
                 ExitCode::from(1)
             })
+        }
+        Cmd::Abandon {
+            use_id,
+            reason,
+            json,
+        } => {
+            let r = ledger.read()?;
+            if let Some(p) = r.problem {
+                bail!("{p}");
+            }
+            let Some(u) = r.state.uses.get(&use_id).cloned() else {
+                bail!("use {use_id} is not in this ledger (`sluice ledger verify` lists the open ones)");
+            };
+            if let Some(l) = u.resolved_line {
+                bail!("use {use_id} was already resolved at line {l}; nothing to do");
+            }
+            if ledger.run_in_progress(&use_id) {
+                bail!("use {use_id}: its run is still going (it holds its lock file); wait for it to end, or stop it first");
+            }
+            match &u.output {
+                Some(out) if Path::new(out).exists() => bail!(
+                    "use {use_id}: its output {out} exists: the run may have finished without its commit; check the output (sluice verify), and remove it first if it must not be used; refused"
+                ),
+                Some(_) => {}
+                None => bail!(
+                    "use {use_id}: its reservation does not say where the output went (written by an older version), so its absence cannot be checked; refused"
+                ),
+            }
+            let reason = format!("resolved by `ledger abandon`: {reason}");
+            let (line, _) = ledger.append(|st| {
+                // Checked again under the lock.
+                if st
+                    .uses
+                    .get(&use_id)
+                    .is_some_and(|u| u.resolved_line.is_some())
+                {
+                    return Err(anyhow::anyhow!(
+                        "use {use_id} was resolved meanwhile; nothing to do"
+                    ));
+                }
+                Ok((
+                    vec![Body::UseAbandoned {
+                        use_id: use_id.clone(),
+                        reason,
+                    }],
+                    st.lines + 1,
+                ))
+            })?;
+            ledger.remove_run_lock(&use_id);
+            if json {
+                common::print_json(&serde_json::json!({
+                    "use": use_id, "seed": u.seed, "abandoned_at_line": line, "charged": u.error,
+                }))?;
+            } else {
+                println!(
+                    "use {use_id} of seed {} recorded as abandoned at line {line}; it stays charged ({:e})",
+                    u.seed, u.error
+                );
+            }
+            Ok(ExitCode::SUCCESS)
         }
         Cmd::Log { seed, json } => {
             let r = ledger.read()?;
@@ -261,6 +353,40 @@ pub fn run(a: LedgerArgs) -> anyhow::Result<ExitCode> {
     }
 }
 
+/// Checks a head kept elsewhere: `LINES:DIGEST` names one line, `DIGEST`
+/// alone any line; the journal may have grown since.
+fn check_kept_head(r: &sluice::ledger::Replay, kept: &str) -> Result<(), String> {
+    let (lines, digest) = match kept.split_once(':') {
+        Some((l, d)) => (
+            Some(l.trim().parse::<u64>().map_err(|_| {
+                format!("--head {kept:?}: expected LINES:DIGEST as printed by `ledger verify`")
+            })?),
+            d.trim(),
+        ),
+        None => (None, kept.trim()),
+    };
+    if !sluice::ledger::state::is_digest(digest) {
+        return Err(format!(
+            "--head {kept:?}: the digest must be 64 lower-case hex digits"
+        ));
+    }
+    match lines {
+        Some(l) => sluice::ledger::check_head(r, l, digest, None).map_err(|e| {
+            format!("{e}; the journal does not hold the head kept elsewhere ({kept})")
+        }),
+        None => {
+            if r.line_digests.iter().any(|d| d == digest) {
+                Ok(())
+            } else {
+                Err(format!(
+                    "no line of the journal has the digest {digest} kept elsewhere: the journal was rewritten or lost records (head now {})",
+                    r.state.head
+                ))
+            }
+        }
+    }
+}
+
 /// The seed a record is about (uses map to their seed).
 fn record_seed(b: &Body, st: &sluice::ledger::State) -> Option<String> {
     match b {
@@ -290,6 +416,7 @@ fn describe(b: &Body) -> String {
             eps_seed,
             origin,
             budget,
+            ..
         } => format!(
             "seed created {seed}: {bits} bits, source {source}, deficiency {deficiency}, eps_seed {eps_seed:e}, budget {budget:e}, origin {origin:?}"
         ),
@@ -371,6 +498,11 @@ pub fn run_extract(a: super::extract::ExtractArgs) -> anyhow::Result<ExitCode> {
     if a.output.as_os_str() == "-" {
         bail!("a run recorded in the ledger writes a file (its digest is recorded): give -o FILE");
     }
+    let receipt_path = a
+        .receipt_path()
+        .expect("a ledgered run writes a file, so it has a receipt path");
+    // Before anything is reserved: a refused output costs nothing.
+    a.check_outputs(Some(&receipt_path))?;
     let ledger = Ledger::new(ledger_dir(lu.ledger.as_deref())?);
     let store = Store::new(ledger.clone());
     // A journal that does not verify stops everything before any work.
@@ -401,12 +533,12 @@ pub fn run_extract(a: super::extract::ExtractArgs) -> anyhow::Result<ExitCode> {
     let r = super::extract::resolve(c, &layout, Some(&seed_bits))?;
     common::print_cautions(c.quiet);
     plan.print_summary(c.quiet);
-    let (seed_id, extra) = match &lu.seed {
-        Some(id) => (id.clone(), vec![]),
+    let (seed_id, pending) = match &lu.seed {
+        Some(id) => (id.clone(), None),
         None => {
             let budget = lu.seed_budget.unwrap_or(sluice::seed::DEFAULT_BUDGET);
-            let (id, body) = store.prepare(&seed_bits, Origin::Os, budget)?;
-            (id, vec![body])
+            let p = store.prepare(&seed_bits, Origin::Os, budget)?;
+            (p.id.clone(), Some(p))
         }
     };
     let n = r.plan.input_bits() as u64;
@@ -427,14 +559,8 @@ pub fn run_extract(a: super::extract::ExtractArgs) -> anyhow::Result<ExitCode> {
         device_independent: plan.device_independent(),
         cross_run_asserted: lu.cross_run,
         repeat_reason: lu.repeat_reason.clone(),
-    };
-    let receipt_path = match &a.receipt {
-        Some(p) => p.clone(),
-        None => {
-            let mut s = a.output.clone().into_os_string();
-            s.push(".receipt.json");
-            PathBuf::from(s)
-        }
+        output: a.output.clone(),
+        receipt: Some(receipt_path.clone()),
     };
     let output = c.files.output(&a.output);
     let pb = common::progress_bits(r.bar_total(layout.input_bits), "extracting");
@@ -456,6 +582,7 @@ pub fn run_extract(a: super::extract::ExtractArgs) -> anyhow::Result<ExitCode> {
             c,
             in_receipt,
             Some((&seed_id, &source)),
+            a.force,
         )
         .map_err(|e| format!("{e:#}"))?;
         let bytes =
@@ -464,22 +591,16 @@ pub fn run_extract(a: super::extract::ExtractArgs) -> anyhow::Result<ExitCode> {
     };
     let res = sluice::pipeline::ledgered::execute(
         &ledger,
+        &store,
         &spec,
-        extra,
+        pending,
         &run,
+        sluice::files::Replace::forced(a.force),
         |d| pb.set_position(d),
         after,
     );
     pb.finish_and_clear();
-    let out = match res {
-        Ok(o) => o,
-        Err(e) => {
-            if lu.new_seed && matches!(e, sluice::pipeline::ledgered::Error::Ledger(_)) {
-                store.discard(&seed_id);
-            }
-            return Err(e.into());
-        }
-    };
+    let out = res?;
     let s = &out.seed_state;
     if c.json {
         common::print_json(&LedgeredJson {

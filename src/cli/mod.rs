@@ -71,6 +71,14 @@ pub fn main() -> ExitCode {
         }
     };
     bench::install_thresholds();
+    // SIGINT / SIGTERM: remove partial outputs, abandon an open use (it
+    // stays charged), say so, exit 130 / 143.
+    if let Err(e) = sluice::files::interrupt::install() {
+        let _ = std::io::Write::write_fmt(
+            &mut std::io::stderr(),
+            format_args!("warning: cannot handle interruptions cleanly: {e}\n"),
+        );
+    }
     let result: anyhow::Result<ExitCode> = match cli.command {
         Command::Extract(a) => extract::run_extract(a),
         Command::Verify(a) => extract::run_verify(a),

@@ -507,8 +507,12 @@ pub fn speed_model() -> Calibration {
 fn save(path: &std::path::Path, c: &Cached) -> anyhow::Result<()> {
     let dir = path.parent().context("cache path has no folder")?;
     std::fs::create_dir_all(dir)?;
-    let tmp = path.with_extension("json.tmp");
-    std::fs::write(&tmp, serde_json::to_vec_pretty(c)?)?;
-    std::fs::rename(&tmp, path)?;
+    // Through the one atomic writer (random temporary name, O_EXCL).
+    sluice::files::atomic::write_all(
+        path,
+        sluice::files::Kind::SpeedCache,
+        sluice::files::Replace::Any,
+        &serde_json::to_vec_pretty(c)?,
+    )?;
     Ok(())
 }

@@ -6,8 +6,8 @@ use super::common::{self, FormatArg};
 use super::ledger::LedgerOpt;
 use anyhow::bail;
 use sluice::bits::{BitOrder, Bits};
+use sluice::files::{AtomicFile, Kind, Replace};
 use sluice::ledger::{Body, SeedState};
-use sluice::pipeline::atomic::AtomicFile;
 use sluice::seed::{self, Origin, Store};
 use std::io::Write;
 use std::path::PathBuf;
@@ -108,6 +108,10 @@ enum Cmd {
         /// How it was disclosed (free text, recorded)
         #[arg(long, default_value = "revealed by the operator")]
         how: String,
+        /// Replace an existing file at -o even if it is not a seed file
+        /// written by sluice
+        #[arg(long)]
+        force: bool,
         /// Print JSON
         #[arg(long)]
         json: bool,
@@ -243,7 +247,8 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
             // The seed bits are public from now on: never delivered, so
             // they leave the output before they become a seed (a failure in
             // between loses them; it never delivers them twice).
-            let mut f = AtomicFile::create(&output, true)?;
+            // The output is cut in place: it stays an output.
+            let mut f = AtomicFile::create(&output, Kind::ExtractOutput, Replace::Any)?;
             f.write_all(&all.slice(0, keep).to_packed(BitOrder::Msb))?;
             f.commit()?;
             let id = store.register(
@@ -345,14 +350,29 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
             id,
             output,
             how,
+            force,
             json,
         } => {
+            if let Some(p) = &output {
+                // Before the disclosure is recorded.
+                let journal = ledger.journal_path();
+                let head = ledger.head_path();
+                common::check_output(
+                    p,
+                    Kind::SeedFile,
+                    &[
+                        (Some(journal.as_path()), "journal"),
+                        (Some(head.as_path()), "head file"),
+                    ],
+                    force,
+                )?;
+            }
             let seed = store.load(&id)?;
             checked(&ledger)?.seed(&id)?;
             // Record first: the disclosure must precede the bits leaving.
             disclose(&ledger, &id, &how)?;
             if let Some(p) = &output {
-                write_seed(p, &seed.bits)?;
+                write_seed(p, &seed.bits, force)?;
             }
             if json {
                 common::print_json(
@@ -420,8 +440,8 @@ fn disclose(ledger: &sluice::ledger::Ledger, id: &str, how: &str) -> anyhow::Res
     Ok(())
 }
 
-fn write_seed(p: &std::path::Path, bits: &Bits) -> anyhow::Result<()> {
-    let mut f = AtomicFile::create(p, true)?;
+fn write_seed(p: &std::path::Path, bits: &Bits, force: bool) -> anyhow::Result<()> {
+    let mut f = AtomicFile::create(p, Kind::SeedFile, Replace::forced(force))?;
     f.write_all(&bits.to_packed(BitOrder::Msb))?;
     f.commit()?;
     Ok(())

@@ -205,10 +205,11 @@ pub fn run_extract(a: &ExtractArgs) -> anyhow::Result<ExitCode> {
     if a.receipt.is_some() || a.receipt_output_digest {
         bail!("--receipt applies to planned runs only; a two-source run writes no receipt");
     }
+    a.check_outputs(None)?;
     let r = resolve(c)?;
     print_cautions(c.quiet);
     let run = run_on(&r, &c.input, c.files.output(&a.output));
-    let report = run.execute(|_| {})?;
+    let report = run.execute_replacing(sluice::files::Replace::forced(a.force), |_| {})?;
     if c.json {
         let j = ExtractJson {
             extractor: r.plan.name(),

@@ -264,7 +264,12 @@ fn generate(dir: &Path) -> anyhow::Result<ExitCode> {
             writeln!(text, "\n# spec/hashing-and-composition.md 3.4\ncase spec-3.4\nextractor modified-toeplitz\ninput-bits 16\noutput-bits 8\ninput 7b6f\nseed 2b56\noutput 4e\nend")?;
         }
         let path = dir.join(format!("{family}.vec"));
-        std::fs::write(&path, text)?;
+        sluice::files::atomic::write_all(
+            &path,
+            sluice::files::Kind::Vectors,
+            sluice::files::Replace::SameKind,
+            text.as_bytes(),
+        )?;
         eprintln!("wrote {}", path.display());
     }
     generate_two_source(dir)?;
@@ -357,7 +362,12 @@ fn generate_two_source(dir: &Path) -> anyhow::Result<()> {
         )?;
     }
     let path = dir.join(format!("{family}.vec"));
-    std::fs::write(&path, text)?;
+    sluice::files::atomic::write_all(
+        &path,
+        sluice::files::Kind::Vectors,
+        sluice::files::Replace::SameKind,
+        text.as_bytes(),
+    )?;
     eprintln!("wrote {}", path.display());
     Ok(())
 }
@@ -454,7 +464,12 @@ fn generate_whole_run(dir: &Path) -> anyhow::Result<ExitCode> {
         )?;
     }
     let path = dir.join("whole-run.vec");
-    std::fs::write(&path, text)?;
+    sluice::files::atomic::write_all(
+        &path,
+        sluice::files::Kind::Vectors,
+        sluice::files::Replace::SameKind,
+        text.as_bytes(),
+    )?;
     eprintln!("wrote {}", path.display());
     Ok(ExitCode::SUCCESS)
 }

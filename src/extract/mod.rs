@@ -208,16 +208,6 @@ impl<T> ScratchPool<T> {
     }
 }
 
-/// Panics with expected and actual lengths when they differ (caller bug).
-#[inline]
-pub fn check_len(what: &str, expected: usize, actual: usize) {
-    if expected != actual {
-        length_mismatch(what, expected, actual)
-    }
-}
-
-#[cold]
-#[inline(never)]
-fn length_mismatch(what: &str, expected: usize, actual: usize) -> ! {
-    panic!("{what}: expected {expected} bits, got {actual}")
-}
+/// Panics with expected and actual lengths when they differ (caller bug);
+/// it lives in `bits` (floor 1), so every layer can use it.
+pub use crate::bits::check_len;

@@ -434,9 +434,9 @@ impl Field {
     #[inline]
     pub fn mul(&self, a: &[u64], b: &[u64], out: &mut [u64]) {
         let w = self.red.w;
-        crate::extract::check_len("field element a (words)", w, a.len());
-        crate::extract::check_len("field element b (words)", w, b.len());
-        crate::extract::check_len("field element out (words)", w, out.len());
+        crate::bits::check_len("field element a (words)", w, a.len());
+        crate::bits::check_len("field element b (words)", w, b.len());
+        crate::bits::check_len("field element out (words)", w, out.len());
         // SAFETY: the lengths are checked above, and `mul_fn` was chosen by
         // `select_mul` for a path that `paths` found runs on this CPU.
         unsafe { (self.mul_fn)(self, a, b, out) }
@@ -456,7 +456,7 @@ impl Field {
     /// Reduces an arbitrary polynomial of `2 * words()` words modulo P_l
     /// into `out` (for elements built from longer bit strings).
     pub fn reduce_wide(&self, wide: &mut [u64], out: &mut [u64]) {
-        crate::extract::check_len("wide polynomial (words)", 2 * self.red.w, wide.len());
+        crate::bits::check_len("wide polynomial (words)", 2 * self.red.w, wide.len());
         self.red.reduce_slice(wide);
         out.copy_from_slice(&wide[..self.red.w]);
     }

@@ -1,8 +1,16 @@
 //! The ledger's error type: a kind plus a position (file, line, byte).
 
-use super::record::Position;
 use std::fmt;
 use std::path::PathBuf;
+
+/// Where a line sits in the journal.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct Position {
+    /// Line number, from 1.
+    pub line: u64,
+    /// Byte offset of the line's start.
+    pub offset: u64,
+}
 
 /// What went wrong.
 #[derive(Debug, thiserror::Error)]
@@ -63,6 +71,51 @@ pub enum ErrorKind {
     /// A spending, timing or consistency rule.
     #[error("{0}")]
     Rule(#[from] Rule),
+    /// A key this format does not have.
+    #[error("unknown key {key:?} in a {kind} record (this version writes no such key)")]
+    UnknownKey {
+        /// The record kind.
+        kind: String,
+        /// The key.
+        key: String,
+    },
+    /// A line that parses but is not written the way this program writes
+    /// records (keys reordered, spaces, numbers spelt differently).
+    #[error("the record is not in the form this program writes it (it was edited)")]
+    NotCanonical,
+    /// The head file says the journal had more records (truncated, or
+    /// deleted and started again).
+    #[error("the head file ({lines} records) says the journal had more records than the {have} it holds: records were removed (the journal was cut or replaced)")]
+    HeadAhead {
+        /// Records the head names.
+        lines: u64,
+        /// Records the journal holds.
+        have: u64,
+    },
+    /// The line a head names has another digest.
+    #[error("line {line} is not the one the head names: its SHA3-256 is {found}, the head says {expected} (the line was changed, or the journal was rewritten)")]
+    HeadMismatch {
+        /// The line.
+        line: u64,
+        /// The head's digest.
+        expected: String,
+        /// The line's digest.
+        found: String,
+    },
+    /// The head file cannot be read.
+    #[error("bad head file: {reason}")]
+    BadHeadFile {
+        /// Why.
+        reason: String,
+    },
+    /// A journal would start beside a seed store that holds seeds.
+    #[error("there is no journal, but the seed store {} holds {seeds} seed(s): the journal was deleted or moved, and a new one would forget their uses; restore the journal (or move the seed store away if you are sure those seeds were never used)", dir.display())]
+    NewJournalBesideSeeds {
+        /// Files in the store.
+        seeds: u64,
+        /// The store.
+        dir: PathBuf,
+    },
     /// The journal cannot be repaired automatically.
     #[error("nothing to repair: {reason}")]
     NotRepairable {

@@ -5,6 +5,7 @@
 //! newline, or [`GENESIS`] for the first line), `time` (seconds since the
 //! Unix epoch, as the writer's clock saw it), `kind` and the kind's fields.
 
+pub use super::error::Position;
 use super::error::{Error, ErrorKind};
 use serde::{Deserialize, Serialize};
 use sha3::{Digest, Sha3_256};
@@ -71,6 +72,12 @@ pub enum Body {
         origin: String,
         /// The seed's error budget (4.3).
         budget: f64,
+        /// Binds the seed's store file to this record: BLAKE3 keyed with
+        /// the store file's random salt, of the identifier, the length and
+        /// the bits (`seed::binding_digest`). Checked on every load; absent
+        /// only in journals written before it existed.
+        #[serde(default, skip_serializing_if = "Option::is_none")]
+        store_digest: Option<String>,
     },
     /// A seed's budget was lowered.
     BudgetSet {
@@ -120,6 +127,11 @@ pub enum Body {
         cross_run_asserted: bool,
         /// Reason given to extract again from raw data already used (4.6).
         repeat_reason: Option<String>,
+        /// Where the output will be written (absolute path), so an open
+        /// reservation can be resolved once its output is known not to
+        /// exist (`ledger abandon`). Absent in older journals.
+        #[serde(default, skip_serializing_if = "Option::is_none")]
+        output: Option<String>,
     },
     /// A reserved use produced its output (durably renamed).
     UseCommitted {
@@ -171,15 +183,6 @@ impl Body {
     }
 }
 
-/// Where a line sits in the journal.
-#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
-pub struct Position {
-    /// Line number, from 1.
-    pub line: u64,
-    /// Byte offset of the line's start.
-    pub offset: u64,
-}
-
 /// SHA3-256 (FIPS 202) of a line's bytes, lower-case hex.
 pub fn line_digest(line: &[u8]) -> String {
     hex::encode(Sha3_256::digest(line))
@@ -200,6 +203,12 @@ pub fn parse_line(
     match serde_json::from_slice::<Record>(line) {
         Ok(r) => *rec = r,
         Err(_) => return Err(at(classify(line))),
+    }
+    // Every record is written in one form (serde_json, keys in field
+    // order): anything else was edited, and this also refuses keys this
+    // format does not have (item 8 of issue 15).
+    if to_line(rec).as_bytes() != line {
+        return Err(at(classify_noncanonical(line, rec)));
     }
     if rec.seq != pos.line {
         return Err(at(ErrorKind::Sequence {
@@ -249,6 +258,24 @@ fn classify(line: &[u8]) -> ErrorKind {
     }
 }
 
+/// Why a line that parsed is not in the canonical form: an unknown key,
+/// or some other edit.
+fn classify_noncanonical(line: &[u8], rec: &Record) -> ErrorKind {
+    let (Ok(serde_json::Value::Object(got)), Ok(serde_json::Value::Object(want))) = (
+        serde_json::from_slice::<serde_json::Value>(line),
+        serde_json::to_value(rec),
+    ) else {
+        return ErrorKind::NotCanonical;
+    };
+    match got.keys().find(|k| !want.contains_key(*k)) {
+        Some(k) => ErrorKind::UnknownKey {
+            kind: rec.body.kind().to_string(),
+            key: k.clone(),
+        },
+        None => ErrorKind::NotCanonical,
+    }
+}
+
 /// The slow twin of the parse in [`parse_line`]: generic JSON first, then
 /// the record (tests compare the two on random lines).
 #[doc(hidden)]
@@ -270,10 +297,15 @@ pub fn parse_record_slow(line: &[u8]) -> Result<Record, ErrorKind> {
             })
         }
     }
-    serde_json::from_value(v).map_err(|e| ErrorKind::BadField {
+    let rec: Record = serde_json::from_value(v).map_err(|e| ErrorKind::BadField {
         field: "record",
         reason: e.to_string(),
-    })
+    })?;
+    // Canonical form: the bytes this program writes for the record.
+    if to_line(&rec).as_bytes() != line {
+        return Err(classify_noncanonical(line, &rec));
+    }
+    Ok(rec)
 }
 
 /// Serializes a record as one line (no newline).
@@ -297,6 +329,43 @@ mod tests {
             line_digest(b"abc"),
             "3a985da74fe225b2045c172d6bd390bd855f086e3e9d525b46bfe24511431532"
         );
+    }
+
+    #[test]
+    fn unknown_keys_and_edited_forms_are_refused() {
+        let rec = Record {
+            seq: 1,
+            prev: GENESIS.into(),
+            time: 5,
+            body: Body::RawCommitted {
+                digest: "ab".repeat(32),
+                bits: 9,
+                origin: "bench".into(),
+            },
+        };
+        let line = to_line(&rec);
+        let mut got = rec.clone();
+        let pos = Position { line: 1, offset: 0 };
+        parse_line(line.as_bytes(), pos, GENESIS, &mut got).unwrap();
+        // An extra key (issue 15 item 8).
+        let extra = line.replace("\"bits\":9", "\"bits\":9,\"budget\":0.9");
+        let e = parse_line(extra.as_bytes(), pos, GENESIS, &mut got).unwrap_err();
+        assert!(
+            matches!(&e.kind, ErrorKind::UnknownKey { key, .. } if key == "budget"),
+            "{e}"
+        );
+        assert!(matches!(
+            parse_record_slow(extra.as_bytes()),
+            Err(ErrorKind::UnknownKey { .. })
+        ));
+        // The same record spelt differently (a space, 9 as 9.0).
+        for edited in [
+            line.replace(",\"bits\"", ", \"bits\""),
+            line.replace(":9,", ":9.0,"),
+        ] {
+            let e = parse_line(edited.as_bytes(), pos, GENESIS, &mut got);
+            assert!(e.is_err(), "{edited}");
+        }
     }
 
     #[test]
@@ -340,11 +409,12 @@ mod tests {
         /// The fast parse and its slow twin agree on mutated record lines:
         /// both accept the same record, or both refuse.
         #[test]
-        fn fast_parse_matches_slow_twin(pos in 0usize..400, byte in 0u8..128, which in 0usize..3) {
+        fn fast_parse_matches_slow_twin(pos in 0usize..400, byte in 0u8..128, which in 0usize..4) {
             let bodies = [
                 Body::JournalStarted { format: FORMAT.into() },
                 Body::RawCommitted { digest: "ab".repeat(32), bits: 9, origin: "bench \"7\"".into() },
-                Body::UseCommitted { use_id: "u".into(), output_digest: "cd".repeat(32), receipt_digest: None },
+                Body::UseCommitted { use_id: "0f".repeat(16), output_digest: "cd".repeat(32), receipt_digest: None },
+                Body::SeedCreated { seed: "1e".repeat(16), bits: 77, source: "os".into(), deficiency: 0.0, eps_seed: 0.0, origin: "o".into(), budget: 1e-6, store_digest: Some("ef".repeat(32)) },
             ];
             let rec = Record { seq: 3, prev: GENESIS.into(), time: 11, body: bodies[which].clone() };
             let mut line = to_line(&rec).into_bytes();

@@ -43,6 +43,9 @@ pub struct SeedState {
     pub retired_line: Option<u64>,
     /// Line of the first use, if any.
     pub first_use_line: Option<u64>,
+    /// The binding digest of its store file (see `Body::SeedCreated`).
+    #[serde(skip)]
+    pub store_digest: Option<String>,
 }
 
 impl SeedState {
@@ -67,6 +70,9 @@ pub struct UseState {
     pub committed: bool,
     /// Error charged.
     pub error: f64,
+    /// Where its output was to be written, if recorded.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub output: Option<String>,
 }
 
 /// The whole derived state.
@@ -92,16 +98,35 @@ pub struct State {
 /// are rounded-up figures, so a budget of exactly k charges admits k uses.
 const BUDGET_SLACK: f64 = 1e-9;
 
-fn is_id(s: &str) -> bool {
+/// 32 lower-case hex digits (seed and use identifiers).
+pub fn is_id(s: &str) -> bool {
     s.len() == 32
         && s.bytes()
             .all(|b| b.is_ascii_digit() || (b'a'..=b'f').contains(&b))
 }
 
-fn is_digest(s: &str) -> bool {
+/// 64 lower-case hex digits (digests).
+pub fn is_digest(s: &str) -> bool {
     s.len() == 64
         && s.bytes()
             .all(|b| b.is_ascii_digit() || (b'a'..=b'f').contains(&b))
+}
+
+fn check_form(field: &'static str, v: &str, digest: bool) -> Result<(), Rule> {
+    let ok = if digest { is_digest(v) } else { is_id(v) };
+    if ok {
+        Ok(())
+    } else {
+        Err(Rule::OutOfRange {
+            field,
+            value: v.to_string(),
+            expected: if digest {
+                "64 lower-case hex digits"
+            } else {
+                "32 lower-case hex digits"
+            },
+        })
+    }
 }
 
 fn check_unit(field: &'static str, v: f64, open: bool) -> Result<(), Rule> {
@@ -156,8 +181,12 @@ impl State {
                 eps_seed,
                 budget,
                 source,
+                store_digest,
                 ..
             } => {
+                if let Some(d) = store_digest {
+                    check_form("store_digest", d, true)?;
+                }
                 if !is_id(seed) {
                     return Err(Rule::OutOfRange {
                         field: "seed",
@@ -235,8 +264,18 @@ impl State {
                 device_independent,
                 cross_run_asserted,
                 repeat_reason,
+                output,
                 ..
             } => {
+                check_form("use", use_id, false)?;
+                check_form("input_digest", input_digest, true)?;
+                if output.as_deref().is_some_and(|o| o.is_empty()) {
+                    return Err(Rule::OutOfRange {
+                        field: "output",
+                        value: String::new(),
+                        expected: "a path",
+                    });
+                }
                 if let Some(u) = self.uses.get(use_id) {
                     return Err(Rule::DuplicateUse {
                         use_id: use_id.clone(),
@@ -308,6 +347,18 @@ impl State {
                 }
             }
             Body::UseCommitted { use_id, .. } | Body::UseAbandoned { use_id, .. } => {
+                check_form("use", use_id, false)?;
+                if let Body::UseCommitted {
+                    output_digest,
+                    receipt_digest,
+                    ..
+                } = body
+                {
+                    check_form("output_digest", output_digest, true)?;
+                    if let Some(d) = receipt_digest {
+                        check_form("receipt_digest", d, true)?;
+                    }
+                }
                 let u = self.uses.get(use_id).ok_or_else(|| Rule::UnknownUse {
                     use_id: use_id.clone(),
                 })?;
@@ -338,6 +389,7 @@ impl State {
                 eps_seed,
                 origin,
                 budget,
+                store_digest,
             } => {
                 self.seeds.insert(
                     seed.clone(),
@@ -350,6 +402,7 @@ impl State {
                         eps_seed: *eps_seed,
                         origin: origin.clone(),
                         budget: *budget,
+                        store_digest: store_digest.clone(),
                         ..SeedState::default()
                     },
                 );
@@ -378,6 +431,7 @@ impl State {
                 input_digest,
                 seed_bits,
                 error,
+                output,
                 ..
             } => {
                 if let Some(s) = self.seeds.get_mut(seed) {
@@ -396,6 +450,7 @@ impl State {
                         resolved_line: None,
                         committed: false,
                         error: *error,
+                        output: output.clone(),
                     },
                 );
             }

@@ -18,12 +18,13 @@ fn seed_created(budget: f64) -> Body {
         eps_seed: 0.0,
         origin: "test".into(),
         budget,
+        store_digest: None,
     }
 }
 
 fn reserve(use_id: &str, raw: &str, error: f64) -> Body {
     Body::UseReserved {
-        use_id: use_id.into(),
+        use_id: uid(use_id),
         seed: SEED.into(),
         construction: "toeplitz".into(),
         params: BTreeMap::from([("n".into(), 32), ("m".into(), 8)]),
@@ -34,7 +35,13 @@ fn reserve(use_id: &str, raw: &str, error: f64) -> Body {
         device_independent: false,
         cross_run_asserted: false,
         repeat_reason: None,
+        output: None,
     }
+}
+
+/// Use identifiers of the tests: 32 hex digits derived from a short name.
+fn uid(name: &str) -> String {
+    format!("{:0>32}", hex::encode(name))
 }
 
 fn raw(d: &str) -> Body {
@@ -56,7 +63,7 @@ fn sample() -> (tempfile::TempDir, Ledger) {
     l.append(|_| {
         Ok::<_, Error>((
             vec![Body::UseCommitted {
-                use_id: "u1".into(),
+                use_id: uid("u1"),
                 output_digest: RAW2.into(),
                 receipt_digest: None,
             }],
@@ -98,7 +105,7 @@ fn sample_verifies_and_derives_state() {
     assert!((s.spent - 2e-7).abs() < 1e-20);
     // u2 never committed: flagged, and still charged.
     let open: Vec<_> = r.state.unresolved().map(|u| u.use_id.clone()).collect();
-    assert_eq!(open, vec!["u2".to_string()]);
+    assert_eq!(open, vec![uid("u2")]);
 }
 
 #[test]
@@ -178,7 +185,7 @@ fn forged_appended_lines_are_detected() {
         prev: record::line_digest(ls[6].as_bytes()),
         time: u64::MAX / 2,
         body: Body::UseCommitted {
-            use_id: "ghost".into(),
+            use_id: uid("ghost"),
             output_digest: RAW.into(),
             receipt_digest: None,
         },

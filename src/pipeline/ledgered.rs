@@ -5,16 +5,25 @@
 //! the journal lock before any output exists (the ledger's rules refuse it
 //! past the budget, on raw data not committed before the seed's disclosure,
 //! on raw data already used without a reason, or on a second
-//! device-independent run without the cross-run assertion); then the output
-//! is written and durably renamed; then the use is committed. A run that
-//! fails before reserving leaves the journal unchanged; a reservation that
-//! never commits stays charged (a failure after reserving is recorded as
-//! abandoned, still charged).
+//! device-independent run without the cross-run assertion; a new seed's
+//! record and store file go in with the same locked append); then the
+//! output is written and durably renamed; then the receipt; then the use is
+//! committed. A run that fails before reserving leaves the journal
+//! unchanged. A failure after reserving (including SIGINT or SIGTERM, when
+//! the command installed [`crate::files::interrupt`]) removes what the run
+//! wrote and records the use as abandoned: it stays charged. A run killed
+//! outright leaves its reservation open; `sluice ledger abandon` resolves it
+//! once its output is known not to exist (the run's lock file in `runs/`
+//! tells a dead run from a live one).
 
-use super::test_hook::point;
 use super::{Error as RunError, Report, Run};
+use crate::files::{fault, interrupt, Replace};
 use crate::ledger::{self, Body, Ledger};
+use crate::seed::{self, PendingSeed, Store};
 use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU8, Ordering};
+use std::sync::Arc;
 
 /// The use to reserve.
 #[derive(Clone, Debug)]
@@ -39,6 +48,10 @@ pub struct UseSpec {
     pub cross_run_asserted: bool,
     /// Reason to extract again from raw data already used (4.6).
     pub repeat_reason: Option<String>,
+    /// The output file (recorded, absolute, in the reservation).
+    pub output: PathBuf,
+    /// The receipt file, removed with the output if the use is abandoned.
+    pub receipt: Option<PathBuf>,
 }
 
 /// Errors of a ledgered run.
@@ -48,21 +61,29 @@ pub enum Error {
     /// from the reservation).
     #[error(transparent)]
     Ledger(#[from] ledger::Error),
+    /// The seed store refused or failed (nothing was reserved).
+    #[error(transparent)]
+    Seed(#[from] seed::Error),
     /// The run failed after its use was reserved; the use stays charged.
-    #[error("{source}; use {use_id} stays charged to its seed (recorded as abandoned)")]
+    #[error("{source}; use {use_id} stays charged to its seed ({resolution})")]
     Run {
         /// The use.
         use_id: String,
         /// The cause.
         source: RunError,
+        /// What happened to the reservation.
+        resolution: String,
     },
-    /// The step after the output (digest, receipt) failed.
-    #[error("{reason}; use {use_id} stays reserved and charged, not committed")]
+    /// A step after reserving (the new seed's store file, the digest, the
+    /// receipt, the commit) failed; the output was removed.
+    #[error("{reason}; use {use_id} stays charged to its seed ({resolution})")]
     After {
         /// The use.
         use_id: String,
         /// Why.
         reason: String,
+        /// What happened to the reservation.
+        resolution: String,
     },
 }
 
@@ -77,13 +98,98 @@ pub struct Outcome {
     pub seed_state: ledger::SeedState,
 }
 
-/// Reserves a use; `extra` records (a new seed's seed-created record) are
-/// appended first, in the same locked append. Returns the use identifier.
-pub fn reserve(ledger: &Ledger, spec: &UseSpec, extra: Vec<Body>) -> Result<String, ledger::Error> {
-    let use_id = ledger::random_id()?;
-    let mut bodies = extra;
+/// The absolute form of an output path, as recorded in the reservation.
+fn absolute(p: &Path) -> PathBuf {
+    let dir = crate::files::parent_dir(p);
+    match (std::fs::canonicalize(dir), p.file_name()) {
+        (Ok(d), Some(n)) => d.join(n),
+        _ => std::path::absolute(p).unwrap_or_else(|_| p.to_path_buf()),
+    }
+}
+
+/// Why an append of the reservation failed: before the records were
+/// written (nothing reserved), or after (the new seed's store file).
+enum ReserveError {
+    Before(Box<Error>),
+    After(Box<seed::Error>),
+}
+
+impl From<ledger::Error> for ReserveError {
+    fn from(e: ledger::Error) -> Self {
+        ReserveError::Before(Box::new(e.into()))
+    }
+}
+
+/// Records the use as abandoned (still charged) unless it is already
+/// resolved; returns how it ended, for messages.
+fn abandon(ledger: &Ledger, use_id: &str, reason: &str, frozen: bool) -> String {
+    let decide = |st: &ledger::State| {
+        let open = st
+            .uses
+            .get(use_id)
+            .is_some_and(|u| u.resolved_line.is_none());
+        let bodies = if open {
+            vec![Body::UseAbandoned {
+                use_id: use_id.to_string(),
+                reason: reason.to_string(),
+            }]
+        } else {
+            Vec::new()
+        };
+        Ok::<_, ledger::Error>((bodies, open))
+    };
+    let res = if frozen {
+        ledger.append_while_frozen(decide)
+    } else {
+        ledger.append(decide)
+    };
+    match res {
+        Ok((true, _)) => "recorded as abandoned".to_string(),
+        Ok((false, _)) => "already resolved".to_string(),
+        Err(e) => format!(
+            "left open: recording the abandon failed ({e}); resolve it with `sluice ledger abandon {use_id}`"
+        ),
+    }
+}
+
+/// How far a run got: what it wrote under the final names.
+const NOTHING: u8 = 0;
+const OUTPUT: u8 = 1;
+const RECEIPT: u8 = 2;
+
+/// Removes what this run wrote (never an older file it did not replace).
+fn remove_outputs(spec: &UseSpec, stage: u8) -> bool {
+    if stage >= OUTPUT {
+        let _ = std::fs::remove_file(&spec.output);
+    }
+    if stage >= RECEIPT {
+        if let Some(r) = &spec.receipt {
+            let _ = std::fs::remove_file(r);
+        }
+    }
+    stage >= OUTPUT
+}
+
+/// Reserves a use of `spec.seed` (after registering `new_seed`, in the same
+/// locked append) and returns its identifier.
+fn reserve(
+    ledger: &Ledger,
+    store: &Store,
+    spec: &UseSpec,
+    use_id: &str,
+    new_seed: Option<&mut PendingSeed>,
+) -> Result<(), ReserveError> {
+    let mut bodies = Vec::new();
+    let (check, file) = match new_seed {
+        Some(p) => {
+            bodies.push(p.body().clone());
+            let (c, f) = p.parts();
+            (Some(c), Some(f))
+        }
+        None => (None, None),
+    };
     bodies.push(Body::UseReserved {
-        use_id: use_id.clone(),
+        use_id: use_id.to_string(),
         seed: spec.seed.clone(),
         construction: spec.construction.clone(),
         params: spec.params.clone(),
@@ -94,46 +200,137 @@ pub fn reserve(ledger: &Ledger, spec: &UseSpec, extra: Vec<Body>) -> Result<Stri
         device_independent: spec.device_independent,
         cross_run_asserted: spec.cross_run_asserted,
         repeat_reason: spec.repeat_reason.clone(),
+        output: Some(absolute(&spec.output).display().to_string()),
     });
-    ledger.append(|_| Ok::<_, ledger::Error>((bodies, ())))?;
-    Ok(use_id)
+    ledger.append_with(
+        |st| {
+            if let Some(c) = &check {
+                c.check(store, st)
+                    .map_err(|e| ReserveError::Before(Box::new(e.into())))?;
+            }
+            Ok::<_, ReserveError>((bodies, ()))
+        },
+        |_| match file {
+            Some(f) => seed::finish_file(f).map_err(|e| ReserveError::After(Box::new(e))),
+            None => Ok(()),
+        },
+    )?;
+    Ok(())
 }
 
-/// Runs `run` as a use of a stored seed: reserve, write, rename, then
-/// `after` (output digest and receipt digest), then commit.
+/// Runs `run` as a use of a stored seed (or of `new_seed`, registered in
+/// the same append as the reservation): reserve, write, rename, then
+/// `after` (output digest and receipt digest), then commit. The output may
+/// replace an existing file as `replace` allows.
+#[allow(clippy::too_many_arguments)]
 pub fn execute(
     ledger: &Ledger,
+    store: &Store,
     spec: &UseSpec,
-    extra: Vec<Body>,
+    mut new_seed: Option<PendingSeed>,
     run: &Run<'_>,
+    replace: Replace,
     progress: impl FnMut(u64),
     after: impl FnOnce(&Report) -> Result<(String, Option<String>), String>,
 ) -> Result<Outcome, Error> {
-    point("before-reserve");
-    let use_id = reserve(ledger, spec, extra)?;
-    point("after-reserve");
-    let report = match run.execute(progress) {
-        Ok(r) => r,
-        Err(source) => {
-            let reason = source.to_string();
-            let _ = ledger.append(|_| {
-                Ok::<_, ledger::Error>((
-                    vec![Body::UseAbandoned {
-                        use_id: use_id.clone(),
-                        reason,
-                    }],
-                    (),
-                ))
+    fault::point("before-reserve");
+    let use_id = ledger::random_id()?;
+    let _run_lock = ledger.lock_run(&use_id)?;
+    // The ledger's cleanup must be registered before ours (it runs first).
+    ledger::register_freeze_on_interrupt();
+    // From here on an interruption abandons the use once it is reserved
+    // (still charged) and removes what the run wrote. Registered before the
+    // reservation: the ledger's own cleanup (registered at this process's
+    // first append, so it runs first) waits for an append in progress and
+    // stops further ones, so the state read here is final.
+    let stage = Arc::new(AtomicU8::new(NOTHING));
+    let _on_signal = {
+        let ledger = ledger.clone();
+        let spec = spec.clone();
+        let use_id = use_id.clone();
+        interrupt::on_interrupt(move |signal| {
+            let found = ledger
+                .read()
+                .ok()
+                .and_then(|r| r.state.uses.get(&use_id).map(|u| u.committed));
+            let Some(committed) = found else {
+                return vec![
+                    "the run was stopped before its use was reserved; nothing was charged"
+                        .to_string(),
+                ];
+            };
+            if committed {
+                return vec![format!(
+                    "use {use_id} had already been committed; its output {} is complete",
+                    spec.output.display()
+                )];
+            }
+            // Only files this run renamed into place (never an older output
+            // it had not yet replaced).
+            let mut existed = false;
+            for p in std::iter::once(&spec.output).chain(spec.receipt.iter()) {
+                if crate::files::atomic::renamed_here(p) {
+                    existed |= p == &spec.output;
+                    let _ = std::fs::remove_file(p);
+                }
+            }
+            let how = abandon(&ledger, &use_id, &format!("interrupted by {signal}"), true);
+            let mut lines = Vec::new();
+            if existed {
+                lines.push(format!(
+                    "removed the output {} (its use was not committed)",
+                    spec.output.display()
+                ));
+            }
+            lines.push(format!(
+                "use {use_id} of seed {}: {how}; it stays charged ({:e})",
+                spec.seed, spec.error
+            ));
+            lines
+        })
+    };
+    match reserve(ledger, store, spec, &use_id, new_seed.as_mut()) {
+        Ok(()) => {}
+        Err(ReserveError::Before(e)) => return Err(*e),
+        Err(ReserveError::After(e)) => {
+            let resolution = abandon(ledger, &use_id, &format!("seed store: {e}"), false);
+            return Err(Error::After {
+                use_id,
+                reason: e.to_string(),
+                resolution,
             });
-            return Err(Error::Run { use_id, source });
+        }
+    }
+    fault::point("after-reserve");
+    let report = match run.execute_replacing(replace, progress) {
+        Ok(r) => {
+            stage.store(OUTPUT, Ordering::SeqCst);
+            r
+        }
+        Err(source) => {
+            let resolution = abandon(ledger, &use_id, &source.to_string(), false);
+            return Err(Error::Run {
+                use_id,
+                source,
+                resolution,
+            });
         }
     };
-    let (output_digest, receipt_digest) = after(&report).map_err(|reason| Error::After {
-        use_id: use_id.clone(),
-        reason,
-    })?;
-    point("before-commit");
-    let ((), state) = ledger.append(|_| {
+    let (output_digest, receipt_digest) = match after(&report) {
+        Ok(v) => v,
+        Err(reason) => {
+            remove_outputs(spec, OUTPUT);
+            let resolution = abandon(ledger, &use_id, &reason, false);
+            return Err(Error::After {
+                use_id,
+                reason: format!("{reason}; the output was removed"),
+                resolution,
+            });
+        }
+    };
+    stage.store(RECEIPT, Ordering::SeqCst);
+    fault::point("before-commit");
+    let res = ledger.append(|_| {
         Ok::<_, ledger::Error>((
             vec![Body::UseCommitted {
                 use_id: use_id.clone(),
@@ -142,7 +339,21 @@ pub fn execute(
             }],
             (),
         ))
-    })?;
+    });
+    let state = match res {
+        Ok(((), state)) => state,
+        Err(e) => {
+            // The journal is as before the commit (a failed append never
+            // tears it): the use is still open, so its output goes.
+            remove_outputs(spec, RECEIPT);
+            let resolution = abandon(ledger, &use_id, &format!("commit failed: {e}"), false);
+            return Err(Error::After {
+                use_id,
+                reason: format!("{e}; the output was removed"),
+                resolution,
+            });
+        }
+    };
     let seed_state = state.seeds.get(&spec.seed).cloned().unwrap_or_default();
     Ok(Outcome {
         report,

@@ -7,16 +7,13 @@
 //! everything has been written and synced. Seeds are never written, printed
 //! or logged here.
 
-pub mod atomic;
 pub mod ledgered;
 pub mod receipt;
-#[doc(hidden)]
-pub mod test_hook;
 
 use crate::bits::io::{open_input, BitWriter, BlockReader};
 use crate::bits::{BitOrder, Bits, Error as BitsError, ErrorKind as BitsErrorKind, Format};
 use crate::extract::{Extractor, SeededExtractor};
-use atomic::AtomicFile;
+use crate::files::{fault, AtomicFile, Kind, Replace};
 use rayon::prelude::*;
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
@@ -124,6 +121,9 @@ pub enum Error {
         /// The cause.
         source: io::Error,
     },
+    /// A size that cannot be held in memory.
+    #[error(transparent)]
+    TooLarge(Box<crate::files::space::TooLarge>),
     /// The input holds no full block.
     #[error("{path}: the input holds {available} bits, fewer than one block of {block} bits; nothing was written")]
     NoBlock {
@@ -134,6 +134,12 @@ pub enum Error {
         /// Block size.
         block: u64,
     },
+}
+
+impl From<crate::files::space::TooLarge> for Error {
+    fn from(e: crate::files::space::TooLarge) -> Self {
+        Error::TooLarge(Box::new(e))
+    }
 }
 
 /// Blocks per parallel batch, and the memory it may take.
@@ -205,15 +211,33 @@ impl Run<'_> {
     /// about every 100 ms with the input-bit equivalent of the output bits
     /// the extractor reports done (so one long block moves it too).
     pub fn execute(&self, progress: impl FnMut(u64)) -> Result<Report, Error> {
+        self.execute_replacing(Replace::SameKind, progress)
+    }
+
+    /// As [`Run::execute`]; an existing output file is replaced only as
+    /// `replace` allows (`--force` gives [`Replace::Any`]).
+    pub fn execute_replacing(
+        &self,
+        replace: Replace,
+        progress: impl FnMut(u64),
+    ) -> Result<Report, Error> {
         let out_err = |e: io::Error| Error::Output {
             path: self.output.path.clone(),
             source: e,
         };
-        let mut sink = Sink::open(&self.output).map_err(out_err)?;
-        let report = self.execute_with(progress, |y| sink.write_bits(y).map_err(out_err))?;
-        test_hook::point("during-write");
+        let mut sink = Sink::open(&self.output, replace).map_err(out_err)?;
+        let report = self.execute_with(progress, |y| {
+            sink.write_bits(y).map_err(|e| {
+                out_err(crate::files::space::explain(
+                    e,
+                    &self.output.path,
+                    Kind::ExtractOutput.describe(),
+                ))
+            })
+        })?;
+        fault::point("during-write");
         sink.finish().map_err(out_err)?;
-        test_hook::point("after-rename");
+        fault::point("after-rename");
         Ok(report)
     }
 
@@ -280,6 +304,25 @@ impl Run<'_> {
     ) -> Result<Report, Error> {
         let n = self.extractor.input_bits();
         let m = self.extractor.output_bits();
+        // Sizes are checked against what the input can hold and against
+        // the memory available before the batch is allocated.
+        if let Source::File(f) = &self.input {
+            if let Some(max) = crate::bits::io::max_bits_in(&f.path, f.format) {
+                let want = self.input_bits.unwrap_or(n as u64).max(n as u64);
+                if want > max {
+                    return Err(BitsError::new(BitsErrorKind::TooShort {
+                        wanted: want,
+                        available: max,
+                    })
+                    .in_file(&f.path)
+                    .into());
+                }
+            }
+        }
+        crate::files::space::check_bits(
+            n as u128 + m as u128,
+            &format!("a block of {n} input bits and {m} output bits"),
+        )?;
         let mut reader = self.input.reader()?;
         let input_bits = match &self.input {
             Source::Memory { bits, .. } => Some(self.input_bits.unwrap_or(bits.len() as u64)),
@@ -385,13 +428,13 @@ enum Sink {
 }
 
 impl Sink {
-    fn open(out: &BitFile) -> io::Result<Sink> {
+    fn open(out: &BitFile, replace: Replace) -> io::Result<Sink> {
         Ok(if out.is_std() {
             Sink::Stdout(BitWriter::new(io::stdout(), out.format, out.order))
         } else {
             // Outputs are secret: owner-only from creation.
             Sink::File(BitWriter::new(
-                AtomicFile::create(&out.path, true)?,
+                AtomicFile::create(&out.path, Kind::ExtractOutput, replace)?,
                 out.format,
                 out.order,
             ))
@@ -422,18 +465,41 @@ pub fn read_seed(
     needed: usize,
     allow_longer: bool,
 ) -> Result<Bits, SeedFileError> {
-    let all = crate::bits::io::read_bits(path, format, BitOrder::Msb, None)?;
+    if let Some(max) = crate::bits::io::max_bits_in(path, format) {
+        if (needed as u64) > max {
+            return Err(SeedFileError::Short {
+                path: path.to_path_buf(),
+                have: max as usize,
+                needed,
+            });
+        }
+    }
+    read_seed_from(open_input(path)?, path, format, needed, allow_longer)
+}
+
+/// [`read_seed`] over any reader (`name` for messages); the fuzz target of
+/// seed files calls it.
+pub fn read_seed_from(
+    r: impl io::Read + Send,
+    name: &Path,
+    format: Format,
+    needed: usize,
+    allow_longer: bool,
+) -> Result<Bits, SeedFileError> {
+    let mut reader = BlockReader::new(r, name, format, BitOrder::Msb);
+    let mut all = Bits::new();
+    reader.read_to_end(&mut all)?;
     let have = all.len();
     if have < needed {
         return Err(SeedFileError::Short {
-            path: path.to_path_buf(),
+            path: name.to_path_buf(),
             have,
             needed,
         });
     }
     if !allow_longer && have > needed.div_ceil(8) * 8 {
         return Err(SeedFileError::Long {
-            path: path.to_path_buf(),
+            path: name.to_path_buf(),
             have,
             needed,
         });

@@ -148,7 +148,7 @@ pub struct Errors {
 }
 
 impl Receipt {
-    /// Parses and checks the schema.
+    /// Parses and checks the schema and the sizes.
     pub fn from_json_str(text: &str) -> Result<Receipt, String> {
         let r: Receipt =
             serde_json::from_str(text).map_err(|e| format!("not a sluice receipt: {e}"))?;
@@ -158,6 +158,62 @@ impl Receipt {
                 r.schema
             ));
         }
+        r.check_sizes()?;
         Ok(r)
+    }
+
+    /// Checks that the sizes agree with each other, before anything is
+    /// allocated from them (issue 15 item 9): 1 <= m <= n (every planned
+    /// construction outputs at most its input), blocks * n plus the
+    /// trailing bits make the input total, the seed and error figures in
+    /// range.
+    pub fn check_sizes(&self) -> Result<(), String> {
+        let c = &self.construction;
+        let b = &self.blocks;
+        let (n, m) = (c.input_bits, c.output_bits);
+        if n == 0 || m == 0 || m > n {
+            return Err(format!(
+                "construction.output_bits = {m}, input_bits = {n}: a planned run has 1 <= output_bits <= input_bits"
+            ));
+        }
+        let used = b.count.checked_mul(n);
+        let total = used.and_then(|u| u.checked_add(b.trailing_bits_unused));
+        if b.count == 0 || total != Some(b.input_bits_total) || b.trailing_bits_unused >= n {
+            return Err(format!(
+                "blocks: {} block(s) of {n} bits and {} trailing bits do not make input_bits_total = {}",
+                b.count, b.trailing_bits_unused, b.input_bits_total
+            ));
+        }
+        if self.errors.blocks != b.count {
+            return Err(format!(
+                "errors.blocks = {} but blocks.count = {}",
+                self.errors.blocks, b.count
+            ));
+        }
+        if c.seed_bits == 0 || self.seed.bits != c.seed_bits {
+            return Err(format!(
+                "seed.bits = {}, construction.seed_bits = {}: they must agree and be positive",
+                self.seed.bits, c.seed_bits
+            ));
+        }
+        let digest_ok = |d: &str| {
+            d.len() == 64
+                && d.bytes()
+                    .all(|x| x.is_ascii_digit() || (b'a'..=b'f').contains(&x))
+        };
+        if !digest_ok(&self.input.digest) {
+            return Err(format!(
+                "input.digest {:?}: expected 64 lower-case hex digits",
+                self.input.digest
+            ));
+        }
+        if let Some(d) = &self.output_digest {
+            if !digest_ok(d) {
+                return Err(format!(
+                    "output_digest {d:?}: expected 64 lower-case hex digits"
+                ));
+            }
+        }
+        Ok(())
     }
 }
