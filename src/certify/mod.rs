@@ -28,8 +28,11 @@ pub mod chsh;
 pub mod eat;
 mod error;
 pub mod iid;
+pub mod improved;
 pub mod record;
 pub mod simulate;
+pub mod tail;
+pub mod tradeoff;
 
 pub use error::{Error, ErrorKind, Position};
 
