@@ -507,8 +507,10 @@ impl Certificate {
                         let alpha = b
                             .alpha
                             .ok_or_else(|| invalid("bound.alpha", "missing".into()))?;
-                        if !(alpha > 1.0 && alpha < 2.0)
-                            || !(b.tangent_point > 0.75 && b.tangent_point < 1.0)
+                        if !(alpha > 1.0
+                            && alpha < 2.0
+                            && b.tangent_point > 0.75
+                            && b.tangent_point < 1.0)
                         {
                             return Err(invalid(
                                 "bound.alpha",
@@ -525,12 +527,14 @@ impl Certificate {
                         ip.validate()?;
                         improved_bound_at(&ip, b.tangent_point, alpha).bound_bits
                     }
-                    Some((other, _)) => return Err(invalid(
-                        "bound.name",
-                        format!(
+                    Some((other, _)) => {
+                        return Err(invalid(
+                            "bound.name",
+                            format!(
                             "{other:?}: this version knows {BOUND_IMPROVED:?} and {BOUND_FIRST:?}"
                         ),
-                    )),
+                        ))
+                    }
                 };
                 if let (Some(w), Some(b)) = (self.record.wins, &self.bound) {
                     if b.test.accepts(w, n_test) != self.accepted {

@@ -395,13 +395,13 @@ pub fn improved_bound_at(p: &ImprovedParams, w_t: f64, alpha: f64) -> ImprovedTe
 }
 
 /// The best alpha for a tangent point: golden section on `ln(alpha - 1)` in
-/// `[ln 1e-15, ln 0.999]`, 120 steps.
+/// `[ln 1e-15, ln 0.999]`, 80 steps.
 fn best_alpha(p: &ImprovedParams, w_t: f64) -> ImprovedTerms {
     let (u, _) = golden_max(
         |u| improved_bound_at(p, w_t, 1.0 + u.exp()).bound_bits,
         (1e-15f64).ln(),
         (0.999f64).ln(),
-        120,
+        80,
     );
     improved_bound_at(p, w_t, 1.0 + u.exp())
 }
@@ -415,7 +415,7 @@ pub fn improved_optimise(p: &ImprovedParams) -> Option<ImprovedTerms> {
     }
     let hi = w_acc.min(W_QUANTUM - QUANTUM_CLAMP);
     let lo = W_CLASSICAL + 1e-9 * (hi - W_CLASSICAL);
-    let (w_t, _) = golden_max(|w| best_alpha(p, w).bound_bits, lo, hi, 90);
+    let (w_t, _) = golden_max(|w| best_alpha(p, w).bound_bits, lo, hi, 64);
     let at = best_alpha(p, w_t);
     // The end point w_acc itself is a candidate too (B may rise up to it).
     let end = best_alpha(p, hi);

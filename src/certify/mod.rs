@@ -167,6 +167,12 @@ pub(crate) fn check_gamma(gamma: f64) -> Result<(), Error> {
     }
 }
 
+/// Refuses a win fraction more than 5 standard deviations above the
+/// quantum maximum (spec 8), for entropy accumulation.
+pub fn check_win_fraction(wins: u64, n_test: u64) -> Result<(), Error> {
+    check_not_above_quantum(wins, n_test, 5.0)
+}
+
 /// Refuses a win fraction above `W_QUANTUM + z sigma`,
 /// `sigma = sqrt(w_obs (1 - w_obs) / N_test)` (spec 8, common practice;
 /// `z = 5` for entropy accumulation, 0 for the i.i.d. estimate).

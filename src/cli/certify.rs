@@ -11,14 +11,24 @@ use sluice::bits::digest::DataDigest;
 use sluice::bits::io::BitWriter;
 use sluice::bits::{BitOrder, Bits, Format};
 use sluice::certify::certificate::{
+    BoundRecord, ChecksRecord, ALICE_LAYOUT, BOUND_FIRST, BOUND_IMPROVED, COUNTS_LABEL,
+};
+use sluice::certify::certificate::{
     Certificate, CertifiedString, Parameters, PublicValues, RecordInfo, ResultTerms, PAIR_LAYOUT,
     SCHEMA,
 };
 use sluice::certify::eat::{
-    completeness, delta_for_completeness, eat_certify, eat_plan, EatParams, EatResult, MARGIN_BITS,
+    completeness, delta_for_completeness, eat_certify, eat_plan, log2_values_ceil, EatParams,
+    EatResult, ZeroReason, MARGIN_BITS,
 };
 use sluice::certify::iid::{iid_estimate, IID_LABEL};
+use sluice::certify::improved::{
+    asymptotic_rate, figure, improved_optimise, input_randomness_bits, plan_tests, Acceptance,
+    ImprovedParams, ImprovedTerms, Keep, PlannedTest, TestKind,
+};
+use sluice::certify::record::{alice_bits, test_rounds_range};
 use sluice::certify::record::{RecordReader, Summary, Tally};
+use sluice::certify::tail::TailMethod;
 use sluice::certify::{cautions, Mode, PublicStat, Setup};
 use std::cell::RefCell;
 use std::fs::File;
@@ -73,10 +83,35 @@ pub struct CertifyArgs {
     #[arg(long, value_name = "DELTA")]
     tolerance: Option<f64>,
 
-    /// With --plan: choose delta so honest devices abort with at most this
-    /// probability (instead of --tolerance).
+    /// Choose the acceptance threshold so that honest devices abort with at
+    /// most this probability (instead of --tolerance; fixed before the run).
     #[arg(long, value_name = "EPS_C", conflicts_with = "tolerance")]
     completeness: Option<f64>,
+
+    /// The finite-size bound: improved-2019 (default; Dupuis-Fawzi alpha
+    /// form) or first-2016 (the first entropy accumulation theorem, for
+    /// re-checking older certificates).
+    #[arg(long, value_name = "BOUND", value_parser = ["improved-2019", "first-2016"])]
+    bound: Option<String>,
+
+    /// Which raw string to certify: pairs (a1 b1 .. aN bN, default) or alice
+    /// (a1 .. aN: Alice's bits only; N_test bits fewer).
+    #[arg(long, value_name = "KEEP", value_parser = ["pairs", "alice"])]
+    keep: Option<String>,
+
+    /// Acceptance test: wins (count of won test rounds) or score
+    /// (W - nu N_test, with --score-offset nu). --plan compares both.
+    #[arg(long, value_name = "TEST", value_parser = ["wins", "score"])]
+    test: Option<String>,
+
+    /// The score offset nu in [0, 1] of --test score.
+    #[arg(long, value_name = "NU")]
+    score_offset: Option<f64>,
+
+    /// How the threshold follows from --completeness: binomial or chernoff
+    /// (wins), chernoff or bernstein (score).
+    #[arg(long, value_name = "TAIL", value_parser = ["binomial", "chernoff", "bernstein", "hoeffding"])]
+    tail: Option<String>,
 
     /// Smoothing parameter eps_s.
     #[arg(long, value_name = "EPS_S")]
@@ -138,6 +173,12 @@ struct Resolved {
     eps_s: Option<f64>,
     eps_ea: Option<f64>,
     eps_est: Option<f64>,
+    eps_c: Option<f64>,
+    bound: Option<String>,
+    keep: Option<String>,
+    test: Option<String>,
+    nu: Option<f64>,
+    tail: Option<String>,
     from_file: Option<(PathBuf, String)>,
 }
 
@@ -145,7 +186,7 @@ struct Resolved {
 type KeyValues = Vec<(String, String, usize)>;
 
 /// Keys of the parameters file.
-const PARAM_KEYS: [&str; 7] = [
+const PARAM_KEYS: [&str; 13] = [
     "rounds",
     "test-probability",
     "expected-win",
@@ -153,6 +194,12 @@ const PARAM_KEYS: [&str; 7] = [
     "smoothing",
     "acceptance",
     "estimation-error",
+    "completeness",
+    "bound",
+    "keep",
+    "test",
+    "score-offset",
+    "tail",
 ];
 
 /// Keys of the counts file (besides the parameters it may carry).
@@ -243,6 +290,12 @@ impl CertifyArgs {
             eps_s: self.smoothing,
             eps_ea: self.acceptance,
             eps_est: self.estimation_error,
+            eps_c: self.completeness,
+            bound: self.bound.clone(),
+            keep: self.keep.clone(),
+            test: self.test.clone(),
+            nu: self.score_offset,
+            tail: self.tail.clone(),
             from_file: None,
         };
         // The parameters file, or else the counts file, which may carry
@@ -291,12 +344,43 @@ impl CertifyArgs {
                         r.w_exp = Some(parse_num(path, line, &k, &v)?)
                     }
                     "tolerance" => {
-                        clash(r.delta.is_some())?;
+                        clash(r.delta.is_some() || r.eps_c.is_some())?;
                         r.delta = Some(parse_num(path, line, &k, &v)?)
                     }
                     "smoothing" => {
                         clash(r.eps_s.is_some())?;
                         r.eps_s = Some(parse_num(path, line, &k, &v)?)
+                    }
+                    "completeness" => {
+                        clash(r.eps_c.is_some() || r.delta.is_some())?;
+                        r.eps_c = Some(parse_num(path, line, &k, &v)?)
+                    }
+                    "score-offset" => {
+                        clash(r.nu.is_some())?;
+                        r.nu = Some(parse_num(path, line, &k, &v)?)
+                    }
+                    "bound" | "keep" | "test" | "tail" => {
+                        let allowed: &[&str] = match k.as_str() {
+                            "bound" => &["improved-2019", "first-2016"],
+                            "keep" => &["pairs", "alice"],
+                            "test" => &["wins", "score"],
+                            _ => &["binomial", "chernoff", "bernstein", "hoeffding"],
+                        };
+                        if !allowed.contains(&v.as_str()) {
+                            bail!(
+                                "{}: line {line}: {k} = {v:?}; the values are {}",
+                                path.display(),
+                                allowed.join(", ")
+                            );
+                        }
+                        let slot = match k.as_str() {
+                            "bound" => &mut r.bound,
+                            "keep" => &mut r.keep,
+                            "test" => &mut r.test,
+                            _ => &mut r.tail,
+                        };
+                        clash(slot.is_some())?;
+                        *slot = Some(v.clone());
                     }
                     "acceptance" => {
                         clash(r.eps_ea.is_some())?;
@@ -364,6 +448,443 @@ fn eat_params(r: &Resolved, delta: f64) -> Result<EatParams> {
     })
 }
 
+/// The bound chosen and everything it needs, fixed before the run.
+#[derive(Debug, Clone, Copy)]
+enum Bound {
+    /// First-order bound of spec 3 (tolerance form).
+    First(EatParams),
+    /// Improved bound with its acceptance test.
+    Improved(ImprovedParams),
+}
+
+/// The protocol of a run: the bound, the string kept, and the level of the
+/// record checks.
+#[derive(Debug, Clone, Copy)]
+struct Protocol {
+    bound: Bound,
+    keep: Keep,
+    w_exp: f64,
+}
+
+impl Protocol {
+    fn eps_s(&self) -> f64 {
+        match &self.bound {
+            Bound::First(p) => p.eps_s,
+            Bound::Improved(p) => p.eps_s,
+        }
+    }
+    fn eps_ea(&self) -> f64 {
+        match &self.bound {
+            Bound::First(p) => p.eps_ea,
+            Bound::Improved(p) => p.eps_ea,
+        }
+    }
+    fn name(&self) -> &'static str {
+        match self.bound {
+            Bound::First(_) => BOUND_FIRST,
+            Bound::Improved(_) => BOUND_IMPROVED,
+        }
+    }
+    /// The acceptance test as a record.
+    fn acceptance(&self) -> Acceptance {
+        match &self.bound {
+            Bound::First(p) => Acceptance {
+                kind: TestKind::Wins,
+                nu: 0.0,
+                threshold: p.threshold_wins(),
+                tail: TailMethod::Hoeffding,
+                completeness: completeness(p.n_rounds, p.gamma, p.delta),
+            },
+            Bound::Improved(p) => p.acceptance,
+        }
+    }
+}
+
+fn parse_tail(t: &str) -> Result<TailMethod> {
+    TailMethod::parse(t)
+        .ok_or_else(|| anyhow!("--tail {t:?}: use binomial, chernoff, bernstein or hoeffding"))
+}
+
+/// Resolves the protocol; `plan` allows the test (and nu) to be left open
+/// (`Ok(None)` for the improved bound then: the planner compares tests).
+fn protocol(r: &Resolved, plan: bool) -> Result<Option<Protocol>> {
+    let n = need(r.rounds, "rounds")?;
+    let gamma = need(r.gamma, "test-probability")?;
+    let w_exp = need(r.w_exp, "expected-win")?;
+    let keep = match r.keep.as_deref() {
+        None | Some("pairs") => Keep::Pairs,
+        Some(_) => Keep::Alice,
+    };
+    let bound = r.bound.as_deref().unwrap_or(BOUND_IMPROVED);
+    if bound == BOUND_FIRST {
+        if r.test.as_deref() == Some("score") || r.nu.is_some() {
+            bail!("--test score: the first-2016 bound takes the win-count test only (use --bound improved-2019)");
+        }
+        if r.tail.as_deref().is_some_and(|t| t != "hoeffding") {
+            bail!("--tail: the first-2016 bound derives its tolerance with hoeffding (spec 3.5)");
+        }
+        let delta = match (r.delta, r.eps_c) {
+            (Some(d), _) => d,
+            (None, Some(eps_c)) => {
+                if !(eps_c > 0.0 && eps_c < 1.0) {
+                    bail!("--completeness {eps_c}: must lie strictly between 0 and 1");
+                }
+                delta_for_completeness(n, gamma, eps_c)
+            }
+            (None, None) => {
+                bail!("--tolerance or --completeness is missing (fixed before the run)")
+            }
+        };
+        let p = eat_params(r, delta)?;
+        p.validate()?;
+        return Ok(Some(Protocol {
+            bound: Bound::First(p),
+            keep,
+            w_exp,
+        }));
+    }
+    let eps_s = need(r.eps_s, "smoothing")?;
+    let eps_ea = need(r.eps_ea, "acceptance")?;
+    let acceptance = if let Some(delta) = r.delta {
+        if r.test.as_deref() == Some("score") {
+            bail!("--tolerance gives a win-count threshold; for --test score give --completeness");
+        }
+        Acceptance {
+            kind: TestKind::Wins,
+            nu: 0.0,
+            threshold: gamma * n as f64 * (w_exp - delta),
+            tail: TailMethod::Hoeffding,
+            completeness: completeness(n, gamma, delta),
+        }
+    } else {
+        let eps_c = need(r.eps_c, "completeness")?;
+        let kind = match r.test.as_deref() {
+            Some("wins") => TestKind::Wins,
+            Some(_) => TestKind::Score,
+            None if plan => return Ok(None),
+            None => bail!("--test is missing: the acceptance test (wins or score) is fixed before the run; certify --plan compares them"),
+        };
+        let nu = match kind {
+            TestKind::Wins => 0.0,
+            TestKind::Score => match r.nu {
+                Some(nu) => nu,
+                None if plan => return Ok(None),
+                None => bail!("--score-offset is missing: --test score needs the nu fixed before the run (certify --plan chooses one)"),
+            },
+        };
+        let tail = match (r.tail.as_deref(), kind) {
+            (Some(t), _) => parse_tail(t)?,
+            (None, TestKind::Wins) => TailMethod::Binomial,
+            (None, TestKind::Score) => TailMethod::Chernoff,
+        };
+        Acceptance::for_completeness(n, gamma, w_exp, eps_c, kind, nu, tail)?
+    };
+    let p = ImprovedParams {
+        n_rounds: n,
+        gamma,
+        eps_s,
+        eps_ea,
+        acceptance,
+    };
+    p.validate()?;
+    Ok(Some(Protocol {
+        bound: Bound::Improved(p),
+        keep,
+        w_exp,
+    }))
+}
+
+/// Bits charged besides the margin when planning: W published (at most
+/// `ceil(log2(N + 1))`) and, keeping Alice's bits only, the largest N_test
+/// the record checks let pass.
+fn planning_charge(n: u64, gamma: f64, level: f64, keep: Keep) -> f64 {
+    let w = log2_values_ceil(n) as f64;
+    match keep {
+        Keep::Pairs => w,
+        Keep::Alice => w + test_rounds_range(n, gamma, level).1 as f64,
+    }
+}
+
+#[derive(Serialize)]
+struct ImprovedPlanRow {
+    test: &'static str,
+    tail: &'static str,
+    score_offset: f64,
+    threshold: f64,
+    w_acc: f64,
+    completeness_error: f64,
+    bits: u64,
+    bits_per_round: f64,
+    terms: Option<ImprovedTerms>,
+}
+
+#[derive(Serialize)]
+struct ImprovedPlanReport {
+    kind: &'static str,
+    label: &'static str,
+    bound: &'static str,
+    keep: Keep,
+    rounds: u64,
+    test_probability: f64,
+    expected_win: f64,
+    smoothing: f64,
+    acceptance: f64,
+    rows: Vec<ImprovedPlanRow>,
+    chosen: usize,
+    asymptotic_bits: f64,
+    input_randomness_bits: f64,
+    net_gain_bits: f64,
+    record_check_level: f64,
+    test_rounds_range: [u64; 2],
+    parameters_file: String,
+    plot: Option<String>,
+    cautions: Vec<&'static str>,
+}
+
+fn run_plan_improved(
+    args: &CertifyArgs,
+    r: &Resolved,
+    fixed: Option<Protocol>,
+) -> Result<ExitCode> {
+    let n = need(r.rounds, "rounds")?;
+    let gamma = need(r.gamma, "test-probability")?;
+    let w_exp = need(r.w_exp, "expected-win")?;
+    let eps_s = need(r.eps_s, "smoothing")?;
+    let eps_ea = need(r.eps_ea, "acceptance")?;
+    let keep = match r.keep.as_deref() {
+        Some("alice") => Keep::Alice,
+        _ => Keep::Pairs,
+    };
+    let level = eps_ea;
+    let charge = planning_charge(n, gamma, level, keep);
+    let candidates: Vec<PlannedTest> = match fixed {
+        Some(Protocol {
+            bound: Bound::Improved(p),
+            ..
+        }) => {
+            let terms = improved_optimise(&p);
+            vec![PlannedTest {
+                acceptance: p.acceptance,
+                terms,
+                bits: terms.map_or(0, |t| figure(t.bound_bits, charge)),
+            }]
+        }
+        _ => {
+            let eps_c = need(r.eps_c, "completeness")?;
+            let all = plan_tests(n, gamma, w_exp, eps_c, eps_s, eps_ea, &|_| charge)?;
+            let want_kind = match r.test.as_deref() {
+                Some("wins") => Some(TestKind::Wins),
+                Some("score") => Some(TestKind::Score),
+                _ => None,
+            };
+            all.into_iter()
+                .filter(|t| want_kind.is_none_or(|k| t.acceptance.kind == k))
+                .filter(|t| {
+                    r.tail
+                        .as_deref()
+                        .is_none_or(|x| x == t.acceptance.tail.name())
+                })
+                .collect()
+        }
+    };
+    if candidates.is_empty() {
+        bail!("--tail: no acceptance test of this kind takes that tail (wins: binomial, chernoff; score: chernoff, bernstein)");
+    }
+    let chosen = candidates
+        .iter()
+        .enumerate()
+        .max_by(|a, b| a.1.bits.cmp(&b.1.bits).then(b.0.cmp(&a.0)))
+        .map(|(i, _)| i)
+        .unwrap_or(0);
+    let (lo, hi) = test_rounds_range(n, gamma, level);
+    let rows: Vec<ImprovedPlanRow> = candidates
+        .iter()
+        .map(|t| ImprovedPlanRow {
+            test: match t.acceptance.kind {
+                TestKind::Wins => "wins",
+                TestKind::Score => "score",
+            },
+            tail: t.acceptance.tail.name(),
+            score_offset: t.acceptance.nu,
+            threshold: t.acceptance.threshold,
+            w_acc: t.acceptance.w_acc(n, gamma),
+            completeness_error: t.acceptance.completeness + level,
+            bits: t.bits,
+            bits_per_round: t.bits as f64 / n as f64,
+            terms: t.terms,
+        })
+        .collect();
+    let best = &candidates[chosen];
+    let input_bits = input_randomness_bits(n, gamma);
+    let mut params_file = format!(
+        "# fixed before the run (certify --plan)\nrounds = {n}\ntest-probability = {gamma}\nexpected-win = {w_exp}\nsmoothing = {eps_s:e}\nacceptance = {eps_ea:e}\nbound = {BOUND_IMPROVED}\nkeep = {}\n",
+        keep.name()
+    );
+    match best.acceptance.tail {
+        TailMethod::Hoeffding => {
+            params_file.push_str(&format!(
+                "tolerance = {}\n",
+                w_exp - best.acceptance.threshold / (gamma * n as f64)
+            ));
+        }
+        t => {
+            params_file.push_str(&format!(
+                "completeness = {:e}\ntest = {}\ntail = {}\n",
+                need(r.eps_c, "completeness")?,
+                rows[chosen].test,
+                t.name()
+            ));
+            if best.acceptance.kind == TestKind::Score {
+                params_file.push_str(&format!("score-offset = {}\n", best.acceptance.nu));
+            }
+        }
+    }
+    let mut plot = None;
+    if let Some(path) = &args.plot {
+        let a = best.acceptance;
+        let eps_c = r.eps_c;
+        let caption = format!(
+            "improved-2019 bound, {} test: certified bits per round if the run passes (W published); w_exp = {w_exp}, eps_s = {eps_s:e}, eps_EA = {eps_ea:e}",
+            rows[chosen].test
+        );
+        draw_rates(path, gamma, &caption, &|n, g| {
+            let acc = match eps_c {
+                Some(e) => Acceptance::for_completeness(n, g, w_exp, e, a.kind, a.nu, a.tail),
+                None => Ok(Acceptance {
+                    threshold: a.threshold / (gamma * r.rounds.unwrap_or(1) as f64) * g * n as f64,
+                    ..a
+                }),
+            };
+            let Ok(acc) = acc else { return 0.0 };
+            let p = ImprovedParams {
+                n_rounds: n,
+                gamma: g,
+                eps_s,
+                eps_ea,
+                acceptance: acc,
+            };
+            improved_optimise(&p).map_or(0.0, |t| {
+                figure(t.bound_bits, planning_charge(n, g, level, keep)) as f64 / n as f64
+            })
+        })?;
+        plot = Some(path.display().to_string());
+    }
+    let report = ImprovedPlanReport {
+        kind: "plan",
+        label: "planning figure: assumes the run passes the test; not a certificate",
+        bound: BOUND_IMPROVED,
+        keep,
+        rounds: n,
+        test_probability: gamma,
+        expected_win: w_exp,
+        smoothing: eps_s,
+        acceptance: eps_ea,
+        chosen,
+        asymptotic_bits: n as f64 * asymptotic_rate(w_exp),
+        input_randomness_bits: input_bits,
+        net_gain_bits: best.bits as f64 - input_bits,
+        record_check_level: level,
+        test_rounds_range: [lo, hi],
+        parameters_file: params_file,
+        plot,
+        rows,
+        cautions: cautions(Mode::EntropyAccumulation).to_vec(),
+    };
+    if args.json {
+        print_json(&report)?;
+        return Ok(ExitCode::SUCCESS);
+    }
+    let mut o = std::io::stdout().lock();
+    writeln!(
+        o,
+        "plan (planning figure: assumes the run passes; not a certificate)"
+    )?;
+    writeln!(
+        o,
+        "  bound improved-2019 (Dupuis-Fawzi 2019, alpha form); N_rounds {n}, gamma {gamma}, w_exp {w_exp}, eps_s {eps_s:e}, eps_EA {eps_ea:e}; string {} ({} bits)",
+        match keep {
+            Keep::Pairs => PAIR_LAYOUT,
+            Keep::Alice => ALICE_LAYOUT,
+        },
+        keep.string_bits(n)
+    )?;
+    writeln!(
+        o,
+        "\n    {:<6} {:<10} {:>6} {:>18} {:>10} {:>12} {:>16} {:>10}",
+        "test", "tail", "nu", "threshold", "w_acc", "eps_c", "bits", "per round"
+    )?;
+    for (i, row) in report.rows.iter().enumerate() {
+        writeln!(
+            o,
+            "  {} {:<6} {:<10} {:>6.4} {:>18.2} {:>10.6} {:>12.3e} {:>16} {:>10.6}",
+            if i == chosen { "*" } else { " " },
+            row.test,
+            row.tail,
+            row.score_offset,
+            row.threshold,
+            row.w_acc,
+            row.completeness_error,
+            row.bits,
+            row.bits_per_round
+        )?;
+    }
+    let row = &report.rows[chosen];
+    writeln!(o)?;
+    writeln!(
+        o,
+        "  certified smooth min-entropy (best test, marked *): {} bits, with W published and the 1-bit margin{}",
+        row.bits,
+        if keep == Keep::Alice {
+            format!("; keeping Alice's bits costs N_test bits (at most {hi} pass the record checks)")
+        } else {
+            String::new()
+        }
+    )?;
+    if let Some(t) = &row.terms {
+        writeln!(
+            o,
+            "  B = {:.2} = N h {:.2} - second order {:.2} - eps term {:.2} - third order {:.2}; w_t = {:.9}, alpha = 1 + {:.6e}",
+            t.bound_bits,
+            t.first_order_bits,
+            t.second_order_bits,
+            t.eps_term_bits,
+            t.third_order_bits,
+            t.w_t,
+            t.alpha - 1.0
+        )?;
+    } else {
+        writeln!(
+            o,
+            "  0 bits: the acceptance threshold does not exceed the classical win probability 3/4"
+        )?;
+    }
+    writeln!(
+        o,
+        "  asymptotic N r(w_exp) = {:.6e} bits; input randomness used N (h(gamma) + 2 gamma) = {:.6e} bits; net gain {:.6e} bits",
+        report.asymptotic_bits, input_bits, report.net_gain_bits
+    )?;
+    if report.net_gain_bits <= 0.0 {
+        writeln!(
+            o,
+            "  no net gain: the run consumes more trusted randomness than it certifies"
+        )?;
+    }
+    writeln!(
+        o,
+        "  completeness: honest devices abort with probability at most {:.3e} (test) + {level:e} (record checks: N_test in {lo}..={hi}, uniform test inputs)",
+        best.acceptance.completeness
+    )?;
+    writeln!(o, "\nparameters to fix before the run (a --params file):")?;
+    for l in report.parameters_file.lines().skip(1) {
+        writeln!(o, "  {l}")?;
+    }
+    if let Some(pl) = &report.plot {
+        writeln!(o, "  plot written to {pl}")?;
+    }
+    print_cautions(&mut o, Mode::EntropyAccumulation)?;
+    Ok(ExitCode::SUCCESS)
+}
+
 /// Runs the command.
 pub fn run(args: CertifyArgs) -> Result<ExitCode> {
     if args.plan {
@@ -371,9 +892,6 @@ pub fn run(args: CertifyArgs) -> Result<ExitCode> {
     }
     if args.record.is_none() && args.counts.is_none() {
         bail!("give a round file, --counts FILE, or --plan");
-    }
-    if args.completeness.is_some() {
-        bail!("--completeness is for --plan; a run is certified with the tolerance fixed before it (--tolerance)");
     }
     run_certify(&args)
 }
@@ -397,9 +915,13 @@ fn run_plan(args: &CertifyArgs) -> Result<ExitCode> {
     if args.mode() == Mode::IidEstimate {
         bail!("--plan computes the entropy-accumulation figure only (the i.i.d. estimate needs the observed wins)");
     }
+    let prot = protocol(&r, true)?;
+    if r.bound.as_deref() != Some(BOUND_FIRST) {
+        return run_plan_improved(args, &r, prot);
+    }
     let n = need(r.rounds, "rounds")?;
     let gamma = need(r.gamma, "test-probability")?;
-    let delta = match (r.delta, args.completeness) {
+    let delta = match (r.delta, r.eps_c) {
         (Some(d), _) => d,
         (None, Some(eps_c)) => {
             if !(eps_c > 0.0 && eps_c < 1.0) {
@@ -413,7 +935,7 @@ fn run_plan(args: &CertifyArgs) -> Result<ExitCode> {
     let res = eat_plan(&p)?;
     let mut plot = None;
     if let Some(path) = &args.plot {
-        draw_plot(path, &p, args.completeness)?;
+        draw_plot(path, &p, r.eps_c)?;
         plot = Some(path.display().to_string());
     }
     let report = PlanReport {
@@ -540,9 +1062,27 @@ fn neighbours(gamma: f64) -> (f64, f64) {
 }
 
 fn draw_plot(path: &Path, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
+    let delta_text = match eps_c {
+        Some(e) => format!("delta for completeness error {e:e}"),
+        None => format!("delta = {}", p.delta),
+    };
+    let caption = format!(
+        "first-2016 bound: certified bits per round if the run passes (W published); w_exp = {}, {delta_text}, eps_s = {:e}, eps_EA = {:e}",
+        p.w_exp, p.eps_s, p.eps_ea
+    );
+    draw_rates(path, p.gamma, &caption, &|n, g| plan_rate(p, n, g, eps_c))
+}
+
+/// Draws certified bits per round against N for gamma and its neighbours.
+fn draw_rates(
+    path: &Path,
+    gamma_given: f64,
+    caption: &str,
+    rate: &(dyn Fn(u64, f64) -> f64 + Sync),
+) -> Result<()> {
     use plotters::prelude::*;
-    let (lo, hi) = neighbours(p.gamma);
-    let mut gammas = [lo, p.gamma, hi];
+    let (lo, hi) = neighbours(gamma_given);
+    let mut gammas = [lo, gamma_given, hi];
     gammas.sort_by(|a, b| a.partial_cmp(b).unwrap());
     let ns: Vec<f64> = (0..=140)
         .map(|i| 10f64.powf(5.0 + i as f64 * 0.05))
@@ -552,9 +1092,7 @@ fn draw_plot(path: &Path, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
         .map(|&g| {
             (
                 g,
-                ns.iter()
-                    .map(|&n| (n, plan_rate(p, n.round() as u64, g, eps_c)))
-                    .collect(),
+                ns.iter().map(|&n| (n, rate(n.round() as u64, g))).collect(),
             )
         })
         .collect();
@@ -567,18 +1105,8 @@ fn draw_plot(path: &Path, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
     {
         let root = SVGBackend::new(&tmp, (960, 600)).into_drawing_area();
         root.fill(&WHITE).map_err(|e| anyhow!("plot: {e}"))?;
-        let delta_text = match eps_c {
-            Some(e) => format!("delta for completeness error {e:e}"),
-            None => format!("delta = {}", p.delta),
-        };
         let mut chart = ChartBuilder::on(&root)
-            .caption(
-                format!(
-                    "certified bits per round if the run passes (W published); w_exp = {}, {delta_text}, eps_s = {:e}, eps_EA = {:e}",
-                    p.w_exp, p.eps_s, p.eps_ea
-                ),
-                ("sans-serif", 16),
-            )
+            .caption(caption, ("sans-serif", 14))
             .margin(16)
             .x_label_area_size(48)
             .y_label_area_size(64)
@@ -594,7 +1122,7 @@ fn draw_plot(path: &Path, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
         let colours = [BLUE, RED, RGBColor(0, 140, 0)];
         for (i, (g, pts)) in series.iter().enumerate() {
             let c = colours[i % 3];
-            let label = if (*g - p.gamma).abs() < 1e-15 {
+            let label = if (*g - gamma_given).abs() < 1e-15 {
                 format!("gamma = {g} (given)")
             } else {
                 format!("gamma = {g}")
@@ -705,6 +1233,7 @@ fn read_record(
     n_expected: u64,
     gamma: f64,
     raw_out: Option<&Path>,
+    keep: Keep,
 ) -> Result<RecordRead> {
     let hasher = Rc::new(RefCell::new(blake3::Hasher::new()));
     let count = Rc::new(RefCell::new(0u64));
@@ -739,7 +1268,8 @@ fn read_record(
     let mut pairs = Bits::new();
 
     let raw_tmp = raw_out.map(temp_path);
-    let digest = DataDigest::new(2 * n_expected);
+    let digest = DataDigest::new(keep.string_bits(n_expected));
+    let mut alice = Bits::new();
     let sink: Box<dyn Write> = match &raw_tmp {
         Some(t) => Box::new(std::io::BufWriter::with_capacity(
             1 << 20,
@@ -766,8 +1296,15 @@ fn read_record(
                 break;
             }
             if tally.rounds() <= n_expected {
+                let bits = match keep {
+                    Keep::Pairs => &pairs,
+                    Keep::Alice => {
+                        alice_bits(&pairs, &mut alice);
+                        &alice
+                    }
+                };
                 writer
-                    .write_bits(&pairs)
+                    .write_bits(bits)
                     .context("cannot write the raw output")?;
             }
             pb.set_position(*count.borrow());
@@ -808,6 +1345,8 @@ fn read_record(
             compressed,
             rounds,
             test_rounds: 0,
+            wins: None,
+            pair_counts: None,
         },
         raw_digest: Some(raw_digest),
         raw_tmp,
@@ -865,6 +1404,9 @@ fn digest_raw_file(path: &Path, nbits: u64) -> Result<String> {
 struct CertifyReport<'a> {
     kind: &'static str,
     accepted: bool,
+    bound: Option<&'a BoundRecord>,
+    string_bits: u64,
+    layout: &'static str,
     mode: Mode,
     setup: Setup,
     labels: &'a [String],
@@ -898,24 +1440,29 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
         bail!("--rounds 0: N_rounds must be at least 1");
     }
     // Validate the parameters before reading a large record.
-    let eat_p = match mode {
-        Mode::EntropyAccumulation => {
-            let p = eat_params(&r, need(r.delta, "tolerance")?)?;
-            p.validate()?;
-            Some(p)
-        }
+    let prot = match mode {
+        Mode::EntropyAccumulation => Some(protocol(&r, false)?.expect("certify fixes the test")),
         Mode::IidEstimate => {
             let e = need(r.eps_est, "estimation-error")?;
             if !(e > 0.0 && e < 1.0) {
                 bail!("--estimation-error {e}: must lie strictly between 0 and 1");
             }
+            if r.keep.as_deref() == Some("alice") {
+                bail!("--keep alice applies to entropy accumulation; the i.i.d. estimate certifies the pair string");
+            }
             None
         }
+    };
+    let keep = prot.map_or(Keep::Pairs, |p| p.keep);
+    // The level of the record checks: the certificate's own error level.
+    let level = match &prot {
+        Some(p) => p.eps_ea(),
+        None => r.eps_est.unwrap_or(1e-6),
     };
 
     let (summary, mut info, raw_digest, raw_tmp) = match (&args.record, &args.counts) {
         (Some(path), _) => {
-            let rr = read_record(path, n, gamma, args.raw_out.as_deref())?;
+            let rr = read_record(path, n, gamma, args.raw_out.as_deref(), keep)?;
             (rr.summary, rr.info, rr.raw_digest, rr.raw_tmp)
         }
         (None, Some(path)) => {
@@ -931,7 +1478,7 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
                 bail!("--public: with --counts only the win count is known, so only \"wins\" (or none) can be published");
             }
             let d = match &args.raw_in {
-                Some(raw) => Some(digest_raw_file(raw, 2 * n)?),
+                Some(raw) => Some(digest_raw_file(raw, keep.string_bits(n))?),
                 None => None,
             };
             let info = RecordInfo {
@@ -941,53 +1488,160 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
                 compressed: false,
                 rounds: s.n_rounds,
                 test_rounds: s.n_test,
+                wins: None,
+                pair_counts: None,
             };
             (s, info, d, None)
         }
         (None, None) => unreachable!(),
     };
     info.test_rounds = summary.n_test;
+    info.wins = Some(summary.wins);
+    info.pair_counts = summary.has_pair_counts.then_some(summary.pair_counts);
     let cleanup = |t: &Option<PathBuf>| {
         if let Some(t) = t {
             let _ = std::fs::remove_file(t);
         }
     };
+    // The record must be one the protocol could have produced (issue 14,
+    // items 1 and 2): refuse, and write nothing, otherwise.
+    let range = match summary.check_protocol(gamma, level) {
+        Ok(range) => range,
+        Err(e) => {
+            cleanup(&raw_tmp);
+            return Err(e.into());
+        }
+    };
 
     // The figure.
+    let d_pub_of = |s: &Summary| sluice::certify::eat::disclosure_charge(&public, s);
+    let mut bound_record = None;
     let (accepted, k, eps_s, eps_cert, eps_cert_source, d_pub, terms) = match mode {
         Mode::EntropyAccumulation => {
-            let p = eat_p.unwrap();
-            let res = match eat_certify(&p, &summary, &public) {
-                Ok(r) => r,
-                Err(e) => {
-                    cleanup(&raw_tmp);
-                    return Err(e.into());
+            let prot = prot.unwrap();
+            if let Err(e) = sluice::certify::check_win_fraction(summary.wins, summary.n_test) {
+                cleanup(&raw_tmp);
+                return Err(e.into());
+            }
+            let acc = prot.acceptance();
+            let keep_charge = match keep {
+                Keep::Pairs => 0,
+                Keep::Alice => summary.n_test,
+            };
+            let d_pub = d_pub_of(&summary);
+            let charges = (d_pub + keep_charge) as f64;
+            let (accepted, bits, t) = match prot.bound {
+                Bound::First(p) => {
+                    let res = match eat_certify(&p, &summary, &public) {
+                        Ok(r) => r,
+                        Err(e) => {
+                            cleanup(&raw_tmp);
+                            return Err(e.into());
+                        }
+                    };
+                    let bits = if res.accepted && res.w_t > 0.0 {
+                        figure(res.bound_bits, charges)
+                    } else {
+                        0
+                    };
+                    let zero = if bits > 0 {
+                        None
+                    } else if !res.accepted {
+                        Some(ZeroReason::Aborted.text().to_string())
+                    } else {
+                        Some(
+                            res.zero_reason
+                                .unwrap_or(ZeroReason::ChargesExceedBound)
+                                .text()
+                                .to_string(),
+                        )
+                    };
+                    bound_record = Some(BoundRecord {
+                        name: BOUND_FIRST.into(),
+                        keep,
+                        test: acc,
+                        tangent_point: res.w_t,
+                        alpha: None,
+                        ceiling_k: (res.w_t > 0.0).then_some(res.k),
+                        keep_charge_bits: keep_charge,
+                        terms: None,
+                    });
+                    (
+                        res.accepted,
+                        bits,
+                        ResultTerms {
+                            bound_bits: res.bound_bits,
+                            first_order_bits: Some(res.first_order_bits),
+                            second_order_bits: Some(res.second_order_bits),
+                            tangent_point: (res.w_t > 0.0).then_some(res.w_t),
+                            ceiling_k: (res.w_t > 0.0).then_some(res.k),
+                            margin_bits: MARGIN_BITS,
+                            completeness_error: Some(acc.completeness + level),
+                            win_lower_bound: None,
+                            zero_reason: zero,
+                        },
+                    )
+                }
+                Bound::Improved(p) => {
+                    let accepted = acc.accepts(summary.wins, summary.n_test);
+                    let opt = improved_optimise(&p);
+                    let bits = match (&opt, accepted) {
+                        (Some(t), true) => figure(t.bound_bits, charges),
+                        _ => 0,
+                    };
+                    let zero = if bits > 0 {
+                        None
+                    } else if !accepted {
+                        Some(ZeroReason::Aborted.text().to_string())
+                    } else if opt.is_none() {
+                        Some(ZeroReason::ThresholdNotAboveClassical.text().to_string())
+                    } else if opt.is_some_and(|t| t.bound_bits <= 0.0) {
+                        Some(ZeroReason::SecondOrderExceedsFirstOrder.text().to_string())
+                    } else {
+                        Some(ZeroReason::ChargesExceedBound.text().to_string())
+                    };
+                    bound_record = Some(BoundRecord {
+                        name: BOUND_IMPROVED.into(),
+                        keep,
+                        test: acc,
+                        tangent_point: opt.map_or(0.0, |t| t.w_t),
+                        alpha: opt.map(|t| t.alpha),
+                        ceiling_k: None,
+                        keep_charge_bits: keep_charge,
+                        terms: opt,
+                    });
+                    (
+                        accepted,
+                        bits,
+                        ResultTerms {
+                            bound_bits: opt.map_or(0.0, |t| t.bound_bits),
+                            first_order_bits: opt.map(|t| t.first_order_bits),
+                            second_order_bits: opt.map(|t| {
+                                t.second_order_bits + t.eps_term_bits + t.third_order_bits
+                            }),
+                            tangent_point: opt.map(|t| t.w_t),
+                            ceiling_k: None,
+                            margin_bits: MARGIN_BITS,
+                            completeness_error: Some(acc.completeness + level),
+                            win_lower_bound: None,
+                            zero_reason: zero,
+                        },
+                    )
                 }
             };
-            let terms = ResultTerms {
-                bound_bits: res.bound_bits,
-                first_order_bits: Some(res.first_order_bits),
-                second_order_bits: Some(res.second_order_bits),
-                tangent_point: (res.w_t > 0.0).then_some(res.w_t),
-                ceiling_k: (res.w_t > 0.0).then_some(res.k),
-                margin_bits: MARGIN_BITS,
-                completeness_error: Some(completeness(p.n_rounds, p.gamma, p.delta)),
-                win_lower_bound: None,
-                zero_reason: res.zero_reason.map(|z| z.text().to_string()),
-            };
             (
-                res.accepted,
-                res.bits,
-                p.eps_s,
-                p.eps_ea,
+                accepted,
+                bits,
+                prot.eps_s(),
+                prot.eps_ea(),
                 "eps_EA",
-                res.d_pub,
-                terms,
+                d_pub,
+                t,
             )
         }
         Mode::IidEstimate => {
             let eps_est = r.eps_est.unwrap();
-            let d_pub = sluice::certify::eat::disclosure_charge(&public, &summary);
+            let d_pub = d_pub_of(&summary);
             let (bits, w_l) = match iid_estimate(n, summary.n_test, summary.wins, eps_est, d_pub) {
                 Ok(v) => v,
                 Err(e) => {
@@ -1025,10 +1679,10 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
         labels.push(IID_LABEL.to_string());
     }
     if args.record.is_none() {
-        labels.push(
-            "computed from counts supplied by the user; the round record itself was not checked"
-                .into(),
-        );
+        labels.push(COUNTS_LABEL.into());
+    }
+    for w in &summary.input_warnings {
+        labels.push(format!("warning: {w}"));
     }
     let public_values = PublicValues {
         wins: public.contains(&PublicStat::Wins).then_some(summary.wins),
@@ -1080,9 +1734,12 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
             labels: labels.clone(),
             accepted,
             string: CertifiedString {
-                length_bits: 2 * n,
+                length_bits: keep.string_bits(n),
                 digest,
-                layout: PAIR_LAYOUT.into(),
+                layout: match keep {
+                    Keep::Pairs => PAIR_LAYOUT.into(),
+                    Keep::Alice => ALICE_LAYOUT.into(),
+                },
             },
             min_entropy_bits: k,
             eps_s,
@@ -1096,10 +1753,13 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
             parameters: Parameters {
                 rounds: n,
                 test_probability: gamma,
-                expected_win: eat_p.map(|p| p.w_exp),
-                tolerance: eat_p.map(|p| p.delta),
-                smoothing: eat_p.map(|p| p.eps_s),
-                acceptance: eat_p.map(|p| p.eps_ea),
+                expected_win: prot.map(|p| p.w_exp),
+                tolerance: prot.and_then(|p| match p.bound {
+                    Bound::First(e) => Some(e.delta),
+                    Bound::Improved(_) => r.delta,
+                }),
+                smoothing: prot.map(|p| p.eps_s()),
+                acceptance: prot.map(|p| p.eps_ea()),
                 estimation_error: r.eps_est.filter(|_| mode == Mode::IidEstimate),
                 source: if r.from_file.is_some() {
                     "file".into()
@@ -1111,9 +1771,17 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
             record: info.clone(),
             result: terms.clone(),
             tool: format!("sluice {}", env!("CARGO_PKG_VERSION")),
+            bound: bound_record.clone(),
+            checks: Some(ChecksRecord {
+                level,
+                test_rounds_range: [range.0, range.1],
+                inputs_checked: summary.has_pair_counts,
+            }),
         };
         cert.validate()
             .map_err(|e| anyhow!("internal error, certificate does not validate: {e}"))?;
+        cert.check_figure()
+            .map_err(|e| anyhow!("internal error, certificate does not recompute: {e}"))?;
         let tmp = temp_path(dest);
         {
             let mut f = create_file(&tmp, false)?;
@@ -1133,6 +1801,12 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
     let report = CertifyReport {
         kind: "certify",
         accepted,
+        bound: bound_record.as_ref(),
+        string_bits: keep.string_bits(n),
+        layout: match keep {
+            Keep::Pairs => PAIR_LAYOUT,
+            Keep::Alice => ALICE_LAYOUT,
+        },
         mode,
         setup,
         labels: &labels,
@@ -1156,7 +1830,7 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
     } else {
         print_text(
             &report,
-            eat_p.as_ref(),
+            prot.as_ref(),
             &summary,
             eps_s,
             eps_cert,
@@ -1172,7 +1846,7 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
 
 fn print_text(
     rep: &CertifyReport<'_>,
-    p: Option<&EatParams>,
+    p: Option<&Protocol>,
     s: &Summary,
     eps_s: f64,
     eps_cert: f64,
@@ -1199,26 +1873,41 @@ fn print_text(
         None => write!(o, "test: win count kept secret")?,
     }
     if let Some(p) = p {
+        let a = p.acceptance();
+        let verdict = if rep.accepted {
+            "ACCEPT"
+        } else {
+            "ABORT: the protocol outputs nothing"
+        };
+        match a.kind {
+            TestKind::Wins => writeln!(o, "; pass needs W >= {:.2} -> {verdict}", a.threshold)?,
+            TestKind::Score => writeln!(
+                o,
+                "; pass needs the score W - {} N_test >= {:.2} -> {verdict}",
+                a.nu, a.threshold
+            )?,
+        }
         writeln!(
             o,
-            "; pass needs at least {:.0} (gamma N (w_exp - delta) = {:.2}) -> {}",
-            p.threshold_wins().ceil(),
-            p.threshold_wins(),
-            if rep.accepted {
-                "ACCEPT"
-            } else {
-                "ABORT: the protocol outputs nothing"
-            }
+            "bound: {} ({}); string kept: {}",
+            p.name(),
+            match p.bound {
+                Bound::First(_) => "first entropy accumulation theorem, spec 3",
+                Bound::Improved(_) =>
+                    "entropy accumulation with improved second-order term, Dupuis-Fawzi 2019",
+            },
+            p.keep.name()
         )?;
     } else {
         writeln!(o)?;
     }
     writeln!(
         o,
-        "certified smooth min-entropy: {} bits ({:.6} per round) of the {}-bit string a1 b1 .. aN bN, as one block",
+        "certified smooth min-entropy: {} bits ({:.6} per round) of the {}-bit string {}, as one block",
         rep.min_entropy_bits,
         rep.bits_per_round,
-        2 * rep.rounds
+        rep.string_bits,
+        rep.layout
     )?;
     if let Some(z) = &rep.zero_reason {
         writeln!(o, "  0 bits: {z}")?;
@@ -1276,7 +1965,7 @@ fn print_text(
     writeln!(
         o,
         "  for the extractor: n = {}, k = {}, eps_s = {eps_s:e}, eps_cert = {eps_cert:e} ({eps_cert_source}), one block",
-        2 * rep.rounds,
+        rep.string_bits,
         rep.min_entropy_bits
     )?;
     writeln!(
@@ -1309,7 +1998,7 @@ fn print_text(
         writeln!(
             o,
             "raw output written to {r} ({} bits, owner-only; secret)",
-            2 * rep.rounds
+            rep.string_bits
         )?;
     }
     print_cautions(&mut o, rep.mode)?;
