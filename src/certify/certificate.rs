@@ -338,7 +338,21 @@ impl Certificate {
         use super::record::Summary;
         let p = &self.parameters;
         let n_test = self.record.test_rounds;
-        let mut s = Summary::from_counts(p.rounds, n_test, self.record.wins.unwrap_or(0));
+        // W: private in version 2, public by default in version 1. Without
+        // it the acceptance cannot be re-checked: refused.
+        let Some(wins) = self.record.wins.or(self.public_values.wins) else {
+            return Err(invalid(
+                "record.wins",
+                "missing: without the win count the acceptance and the figure cannot be recomputed; run sluice certify again on the record (this version keeps the private counts in the certificate)".into(),
+            ));
+        };
+        if wins > n_test {
+            return Err(invalid(
+                "record.wins",
+                format!("{wins} wins in {n_test} test rounds"),
+            ));
+        }
+        let mut s = Summary::from_counts(p.rounds, n_test, wins);
         match self.record.pair_counts {
             Some(pc) => {
                 s.pair_counts = pc;
@@ -407,17 +421,16 @@ impl Certificate {
                         ),
                     ));
                 }
-                if let Some(w) = self.record.wins {
-                    if n_test == 0 {
-                        return Err(invalid("record.test_rounds", "0 test rounds".into()));
-                    }
-                    let want = super::iid::iid_win_lower_bound(n_test, w, eps);
-                    if w_l > want + 1e-12 {
-                        return Err(invalid(
-                            "result.win_lower_bound",
-                            format!("{w_l}, but {w} wins in {n_test} test rounds give {want}"),
-                        ));
-                    }
+                let w = wins;
+                if n_test == 0 {
+                    return Err(invalid("record.test_rounds", "0 test rounds".into()));
+                }
+                let want = super::iid::iid_win_lower_bound(n_test, w, eps);
+                if w_l > want + 1e-12 {
+                    return Err(invalid(
+                        "result.win_lower_bound",
+                        format!("{w_l}, but {w} wins in {n_test} test rounds give {want}"),
+                    ));
                 }
                 let h = p.rounds as f64 * hmin_single(s_from_win(w_l)) - d;
                 if h > 0.0 {
@@ -536,7 +549,8 @@ impl Certificate {
                         ))
                     }
                 };
-                if let (Some(w), Some(b)) = (self.record.wins, &self.bound) {
+                if let Some(b) = &self.bound {
+                    let w = wins;
                     if b.test.accepts(w, n_test) != self.accepted {
                         return Err(invalid(
                             "accepted",
