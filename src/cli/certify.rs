@@ -919,6 +919,9 @@ fn run_plan(args: &CertifyArgs) -> Result<ExitCode> {
     if r.bound.as_deref() != Some(BOUND_FIRST) {
         return run_plan_improved(args, &r, prot);
     }
+    if r.keep.as_deref() == Some("alice") {
+        bail!("--keep alice: --plan computes the Alice-only figure with --bound improved-2019 (the first-2016 plan covers the pair string of spec 3.8)");
+    }
     let n = need(r.rounds, "rounds")?;
     let gamma = need(r.gamma, "test-probability")?;
     let delta = match (r.delta, r.eps_c) {
