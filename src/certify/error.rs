@@ -78,6 +78,12 @@ pub enum ErrorKind {
         /// What the operator should do.
         todo: &'static str,
     },
+    /// A parameters or counts file that does not follow its format.
+    #[error("{what}")]
+    Parameters {
+        /// What is wrong.
+        what: String,
+    },
     /// A certificate JSON document that does not parse or does not validate.
     #[error("{0}")]
     Certificate(String),

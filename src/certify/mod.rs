@@ -29,6 +29,7 @@ pub mod eat;
 mod error;
 pub mod iid;
 pub mod improved;
+pub mod params;
 pub mod record;
 pub mod simulate;
 pub mod tail;

@@ -648,6 +648,100 @@ pub fn alice_bits(pairs: &Bits, out: &mut Bits) {
     out.clear_tail();
 }
 
+/// A writer that feeds a data digest with what it writes.
+struct DigestWriter<W> {
+    inner: W,
+    digest: crate::bits::digest::DataDigest,
+}
+
+impl<W: std::io::Write> std::io::Write for DigestWriter<W> {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        let n = self.inner.write(buf)?;
+        self.digest.update(&buf[..n]);
+        Ok(n)
+    }
+    fn flush(&mut self) -> std::io::Result<()> {
+        self.inner.flush()
+    }
+}
+
+/// What [`read_record`] found.
+pub struct RecordRead<W> {
+    /// Counts of every kind of round.
+    pub tally: Tally,
+    /// Rounds read (all of them, also beyond `n_expected`).
+    pub rounds: u64,
+    /// Data digest (hex) of the raw string written, `keep.string_bits(n_expected)` bits.
+    pub raw_digest: String,
+    /// The sink, flushed.
+    pub sink: W,
+}
+
+/// Rounds parsed per step (a multiple of 4, so the raw string stays
+/// byte-aligned between steps).
+const CHUNK_ROUNDS: usize = 1 << 20;
+
+/// Reads a round file (already decompressed) from `text` in one pass:
+/// counts every round, and writes the raw string the certificate covers
+/// (the outputs of the first `n_expected` rounds: `a1 b1 .. aN bN`, or
+/// `a1 .. aN` for [`Keep::Alice`]; packed, MSB first) to `sink` while
+/// digesting it. `progress` is called after every step of about a million
+/// rounds. The caller checks `rounds` against `n_expected`.
+pub fn read_record<R: BufRead, W: std::io::Write>(
+    text: R,
+    n_expected: u64,
+    keep: super::improved::Keep,
+    sink: W,
+    mut progress: impl FnMut(),
+) -> Result<RecordRead<W>, Error> {
+    use super::improved::Keep;
+    use crate::bits::io::BitWriter;
+    use crate::bits::{BitOrder, Format};
+    let mut reader = RecordReader::new(text);
+    let mut tally = Tally::new();
+    let mut pairs = Bits::new();
+    let mut alice = Bits::new();
+    let mut writer = BitWriter::new(
+        DigestWriter {
+            inner: sink,
+            digest: crate::bits::digest::DataDigest::new(keep.string_bits(n_expected)),
+        },
+        Format::Packed,
+        BitOrder::Msb,
+    );
+    let mut written = 0u64;
+    loop {
+        let n = reader.read_rounds(CHUNK_ROUNDS, &mut tally, Some(&mut pairs))?;
+        if n == 0 {
+            break;
+        }
+        if written < n_expected {
+            let take = (n_expected - written).min(n as u64) as usize;
+            if take < n {
+                pairs.truncate(2 * take);
+            }
+            let bits = match keep {
+                Keep::Pairs => &pairs,
+                Keep::Alice => {
+                    alice_bits(&pairs, &mut alice);
+                    &alice
+                }
+            };
+            writer.write_bits(bits)?;
+            written += take as u64;
+        }
+        progress();
+    }
+    let DigestWriter { mut inner, digest } = writer.finish()?;
+    inner.flush()?;
+    Ok(RecordRead {
+        rounds: tally.rounds(),
+        tally,
+        raw_digest: digest.finish_hex(),
+        sink: inner,
+    })
+}
+
 /// Writes rounds as a round file (canonical lines), for the simulator and
 /// tests.
 pub fn format_round(r: &Round, out: &mut Vec<u8>) {
@@ -851,6 +945,34 @@ mod tests {
             alice_bits(&pairs, &mut out);
             let want: Vec<bool> = v.iter().step_by(2).copied().collect();
             prop_assert_eq!(out.iter().collect::<Vec<_>>(), want);
+        }
+    }
+
+    #[test]
+    fn read_record_writes_and_digests_the_kept_string() {
+        // Against the bit-by-bit twin: the pairs of the first n rounds, or
+        // every other bit of them.
+        use crate::bits::digest::data_digest;
+        use crate::certify::improved::Keep;
+        let text = b"00011\n10110\n00010\n11101\n00001\n10000\n";
+        for (keep, n) in [(Keep::Pairs, 6u64), (Keep::Alice, 6), (Keep::Pairs, 4)] {
+            let mut calls = 0;
+            let r = read_record(&text[..], n, keep, Vec::new(), || calls += 1).unwrap();
+            assert_eq!(r.rounds, 6);
+            assert!(calls >= 1);
+            let pairs: Vec<bool> = text
+                .split(|&c| c == b'\n')
+                .filter(|l| l.len() == 5)
+                .take(n as usize)
+                .flat_map(|l| [l[3] == b'1', l[4] == b'1'])
+                .collect();
+            let bits: Vec<bool> = match keep {
+                Keep::Pairs => pairs,
+                Keep::Alice => pairs.iter().step_by(2).copied().collect(),
+            };
+            let b = Bits::from_bools(&bits);
+            assert_eq!(r.sink, b.to_packed(crate::bits::BitOrder::Msb));
+            assert_eq!(r.raw_digest, data_digest(&b));
         }
     }
 

@@ -8,8 +8,6 @@ use super::common::{print_json, progress};
 use anyhow::{anyhow, bail, Context, Result};
 use serde::Serialize;
 use sluice::bits::digest::DataDigest;
-use sluice::bits::io::BitWriter;
-use sluice::bits::{BitOrder, Bits, Format};
 use sluice::certify::certificate::{
     BoundRecord, ChecksRecord, ALICE_LAYOUT, BOUND_FIRST, BOUND_IMPROVED, COUNTS_LABEL,
 };
@@ -26,8 +24,9 @@ use sluice::certify::improved::{
     asymptotic_rate, figure, improved_optimise, input_randomness_bits, plan_tests, Acceptance,
     ImprovedParams, ImprovedTerms, Keep, PlannedTest, TestKind,
 };
-use sluice::certify::record::{alice_bits, test_rounds_range};
-use sluice::certify::record::{RecordReader, Summary, Tally};
+use sluice::certify::params::{self, Declared, KeyValue, COUNT_KEYS, PARAM_KEYS};
+use sluice::certify::record::test_rounds_range;
+use sluice::certify::record::{read_record as read_rounds, Summary};
 use sluice::certify::tail::TailMethod;
 use sluice::certify::{cautions, Mode, PublicStat, Setup};
 use std::cell::RefCell;
@@ -36,9 +35,6 @@ use std::io::{BufRead, BufReader, Read, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use std::rc::Rc;
-
-/// Rounds parsed per step (a multiple of 4, so raw output stays byte-aligned).
-const CHUNK_ROUNDS: usize = 1 << 20;
 
 /// Certify the record of a CHSH Bell test, or plan a run.
 ///
@@ -166,136 +162,50 @@ pub struct CertifyArgs {
 /// Protocol parameters with their origin.
 #[derive(Debug, Default, Clone)]
 struct Resolved {
-    rounds: Option<u64>,
-    gamma: Option<f64>,
-    w_exp: Option<f64>,
-    delta: Option<f64>,
-    eps_s: Option<f64>,
-    eps_ea: Option<f64>,
-    eps_est: Option<f64>,
-    eps_c: Option<f64>,
-    bound: Option<String>,
-    keep: Option<String>,
-    test: Option<String>,
-    nu: Option<f64>,
-    tail: Option<String>,
+    d: Declared,
     from_file: Option<(PathBuf, String)>,
 }
 
-/// `(key, value, line number)` entries of a `key = value` file.
-type KeyValues = Vec<(String, String, usize)>;
+impl std::ops::Deref for Resolved {
+    type Target = Declared;
+    fn deref(&self) -> &Declared {
+        &self.d
+    }
+}
 
-/// Keys of the parameters file.
-const PARAM_KEYS: [&str; 13] = [
-    "rounds",
-    "test-probability",
-    "expected-win",
-    "tolerance",
-    "smoothing",
-    "acceptance",
-    "estimation-error",
-    "completeness",
-    "bound",
-    "keep",
-    "test",
-    "score-offset",
-    "tail",
-];
-
-/// Keys of the counts file (besides the parameters it may carry).
-const COUNT_KEYS: [&str; 2] = ["test-rounds", "wins"];
-
-/// Reads `key = value` lines ('#' comments, blank lines ignored); returns
-/// them with the BLAKE3 hex digest of the file.
-fn read_key_values(path: &Path, allowed: &[&str]) -> Result<(KeyValues, String)> {
+/// Reads a `key = value` file through the library parser; returns the
+/// lines with the BLAKE3 hex digest of the file.
+fn read_key_values(path: &Path, allowed: &[&str]) -> Result<(Vec<KeyValue>, String)> {
     let bytes = std::fs::read(path).with_context(|| format!("cannot read {}", path.display()))?;
     let digest = blake3::hash(&bytes).to_hex().to_string();
-    let text = String::from_utf8(bytes).map_err(|e| {
-        anyhow!(
-            "{}: byte {}: not UTF-8 text",
-            path.display(),
-            e.utf8_error().valid_up_to()
-        )
-    })?;
-    let mut out: Vec<(String, String, usize)> = Vec::new();
-    for (i, raw) in text.lines().enumerate() {
-        let line = raw.split('#').next().unwrap_or("").trim();
-        if line.is_empty() {
-            continue;
-        }
-        let Some((k, v)) = line.split_once('=') else {
-            bail!(
-                "{}: line {}: {:?} is not of the form key = value",
-                path.display(),
-                i + 1,
-                raw
-            );
-        };
-        let (k, v) = (k.trim().to_string(), v.trim().to_string());
-        if !allowed.contains(&k.as_str()) {
-            bail!(
-                "{}: line {}: unknown key {:?}; the keys are {}",
-                path.display(),
-                i + 1,
-                k,
-                allowed.join(", ")
-            );
-        }
-        if out.iter().any(|(o, _, _)| *o == k) {
-            bail!("{}: line {}: {:?} is given twice", path.display(), i + 1, k);
-        }
-        out.push((k, v, i + 1));
-    }
-    Ok((out, digest))
+    let kv = params::read_key_values(&bytes[..], allowed)
+        .map_err(|e| anyhow!("{}: {e}", path.display()))?;
+    Ok((kv, digest))
 }
 
 /// A count written as an integer or as an exact power form such as 1e8.
 fn parse_count(s: &str) -> std::result::Result<u64, String> {
-    let t = s.replace('_', "");
-    if let Ok(v) = t.parse::<u64>() {
-        return Ok(v);
-    }
-    match t.parse::<f64>() {
-        Ok(f) if f.fract() == 0.0 && (0.0..1.8e19).contains(&f) => Ok(f as u64),
-        _ => Err(format!("{s:?} is not a whole number of rounds")),
-    }
-}
-
-fn parse_num<T: std::str::FromStr>(path: &Path, line: usize, key: &str, v: &str) -> Result<T> {
-    let v2 = v.replace('_', "");
-    // Accept integers written as 1e8 too.
-    if let Ok(x) = v2.parse::<T>() {
-        return Ok(x);
-    }
-    if let Ok(f) = v2.parse::<f64>() {
-        if f.fract() == 0.0 && (0.0..1.8e19).contains(&f) {
-            if let Ok(x) = format!("{}", f as u64).parse::<T>() {
-                return Ok(x);
-            }
-        }
-    }
-    bail!(
-        "{}: line {line}: {key} = {v:?} is not a number of the right kind",
-        path.display()
-    )
+    params::parse_count(s).ok_or_else(|| format!("{s:?} is not a whole number of rounds"))
 }
 
 impl CertifyArgs {
     fn resolve(&self) -> Result<Resolved> {
         let mut r = Resolved {
-            rounds: self.rounds,
-            gamma: self.test_probability,
-            w_exp: self.expected_win,
-            delta: self.tolerance,
-            eps_s: self.smoothing,
-            eps_ea: self.acceptance,
-            eps_est: self.estimation_error,
-            eps_c: self.completeness,
-            bound: self.bound.clone(),
-            keep: self.keep.clone(),
-            test: self.test.clone(),
-            nu: self.score_offset,
-            tail: self.tail.clone(),
+            d: Declared {
+                rounds: self.rounds,
+                gamma: self.test_probability,
+                w_exp: self.expected_win,
+                delta: self.tolerance,
+                eps_s: self.smoothing,
+                eps_ea: self.acceptance,
+                eps_est: self.estimation_error,
+                eps_c: self.completeness,
+                bound: self.bound.clone(),
+                keep: self.keep.clone(),
+                test: self.test.clone(),
+                nu: self.score_offset,
+                tail: self.tail.clone(),
+            },
             from_file: None,
         };
         // The parameters file, or else the counts file, which may carry
@@ -307,91 +217,9 @@ impl CertifyArgs {
                 allowed.extend_from_slice(&COUNT_KEYS);
             }
             let (kv, digest) = read_key_values(path, &allowed)?;
-            let mut any = false;
-            for (k, v, line) in kv {
-                if COUNT_KEYS.contains(&k.as_str()) {
-                    continue;
-                }
-                if self.params.is_none() && k == "rounds" {
-                    // In a counts file, rounds is the count; it is checked
-                    // against --rounds (or taken as N_rounds) later.
-                    if r.rounds.is_none() {
-                        r.rounds = Some(parse_num(path, line, &k, &v)?);
-                    }
-                    continue;
-                }
-                any = true;
-                let clash = |given: bool| -> Result<()> {
-                    if given {
-                        bail!(
-                            "{k} is given both in {} (line {line}) and as --{k}; give each parameter once",
-                            path.display()
-                        );
-                    }
-                    Ok(())
-                };
-                match k.as_str() {
-                    "rounds" => {
-                        clash(r.rounds.is_some())?;
-                        r.rounds = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    "test-probability" => {
-                        clash(r.gamma.is_some())?;
-                        r.gamma = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    "expected-win" => {
-                        clash(r.w_exp.is_some())?;
-                        r.w_exp = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    "tolerance" => {
-                        clash(r.delta.is_some() || r.eps_c.is_some())?;
-                        r.delta = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    "smoothing" => {
-                        clash(r.eps_s.is_some())?;
-                        r.eps_s = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    "completeness" => {
-                        clash(r.eps_c.is_some() || r.delta.is_some())?;
-                        r.eps_c = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    "score-offset" => {
-                        clash(r.nu.is_some())?;
-                        r.nu = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    "bound" | "keep" | "test" | "tail" => {
-                        let allowed: &[&str] = match k.as_str() {
-                            "bound" => &["improved-2019", "first-2016"],
-                            "keep" => &["pairs", "alice"],
-                            "test" => &["wins", "score"],
-                            _ => &["binomial", "chernoff", "bernstein", "hoeffding"],
-                        };
-                        if !allowed.contains(&v.as_str()) {
-                            bail!(
-                                "{}: line {line}: {k} = {v:?}; the values are {}",
-                                path.display(),
-                                allowed.join(", ")
-                            );
-                        }
-                        let slot = match k.as_str() {
-                            "bound" => &mut r.bound,
-                            "keep" => &mut r.keep,
-                            "test" => &mut r.test,
-                            _ => &mut r.tail,
-                        };
-                        clash(slot.is_some())?;
-                        *slot = Some(v.clone());
-                    }
-                    "acceptance" => {
-                        clash(r.eps_ea.is_some())?;
-                        r.eps_ea = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    _ => {
-                        clash(r.eps_est.is_some())?;
-                        r.eps_est = Some(parse_num(path, line, &k, &v)?)
-                    }
-                }
-            }
+            let any =
+                r.d.merge(&kv, self.params.is_none())
+                    .map_err(|e| anyhow!("{}: {e}", path.display()))?;
             if self.params.is_some() || any {
                 r.from_file = Some((path.clone(), digest));
             }
@@ -1170,23 +998,6 @@ impl<R: Read> Read for Tee<R> {
     }
 }
 
-/// A writer that also feeds a data digest.
-struct DigestWriter<W> {
-    inner: W,
-    digest: DataDigest,
-}
-
-impl<W: Write> Write for DigestWriter<W> {
-    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
-        let n = self.inner.write(buf)?;
-        self.digest.update(&buf[..n]);
-        Ok(n)
-    }
-    fn flush(&mut self) -> std::io::Result<()> {
-        self.inner.flush()
-    }
-}
-
 /// A sink that only digests.
 struct Discard;
 
@@ -1266,13 +1077,7 @@ fn read_record(
     } else {
         Box::new(raw_in)
     };
-    let mut reader = RecordReader::new(text);
-    let mut tally = Tally::new();
-    let mut pairs = Bits::new();
-
     let raw_tmp = raw_out.map(temp_path);
-    let digest = DataDigest::new(keep.string_bits(n_expected));
-    let mut alice = Bits::new();
     let sink: Box<dyn Write> = match &raw_tmp {
         Some(t) => Box::new(std::io::BufWriter::with_capacity(
             1 << 20,
@@ -1280,63 +1085,35 @@ fn read_record(
         )),
         None => Box::new(Discard),
     };
-    let mut writer = BitWriter::new(
-        DigestWriter {
-            inner: sink,
-            digest,
-        },
-        Format::Packed,
-        BitOrder::Msb,
-    );
-
     let pb = progress(size.unwrap_or(0), "reading rounds");
-    let result = (|| -> Result<()> {
-        loop {
-            let n = reader
-                .read_rounds(CHUNK_ROUNDS, &mut tally, Some(&mut pairs))
-                .map_err(|e| anyhow!("{}: {e}", path.display()))?;
-            if n == 0 {
-                break;
-            }
-            if tally.rounds() <= n_expected {
-                let bits = match keep {
-                    Keep::Pairs => &pairs,
-                    Keep::Alice => {
-                        alice_bits(&pairs, &mut alice);
-                        &alice
-                    }
-                };
-                writer
-                    .write_bits(bits)
-                    .context("cannot write the raw output")?;
-            }
-            pb.set_position(*count.borrow());
-        }
-        Ok(())
-    })();
+    // One pass: the library parses, tallies, writes and digests the kept
+    // string; this layer only supplies the streams.
+    let result = read_rounds(text, n_expected, keep, sink, || {
+        pb.set_position(*count.borrow())
+    });
     pb.finish_and_clear();
-    if let Err(e) = result {
+    let cleanup = || {
         if let Some(t) = &raw_tmp {
             let _ = std::fs::remove_file(t);
         }
-        return Err(e);
-    }
-    let rounds = tally.rounds();
+    };
+    let read = match result {
+        Ok(r) => r,
+        Err(e) => {
+            cleanup();
+            return Err(anyhow!("{}: {e}", path.display()));
+        }
+    };
+    let rounds = read.rounds;
     if rounds != n_expected {
-        if let Some(t) = &raw_tmp {
-            let _ = std::fs::remove_file(t);
-        }
+        cleanup();
         bail!(
             "{}: the record holds {rounds} rounds, but N_rounds = {n_expected} was fixed before the run",
             path.display()
         );
     }
-    let dw = writer.finish().context("cannot write the raw output")?;
-    let DigestWriter { mut inner, digest } = dw;
-    inner.flush().context("cannot write the raw output")?;
-    drop(inner);
-    let raw_digest = digest.finish_hex();
-    let summary = tally.summary(gamma)?;
+    drop(read.sink);
+    let summary = read.tally.summary(gamma)?;
     let file_digest = hasher.borrow().finalize().to_hex().to_string();
     let file_bytes = *count.borrow();
     Ok(RecordRead {
@@ -1351,29 +1128,14 @@ fn read_record(
             wins: None,
             pair_counts: None,
         },
-        raw_digest: Some(raw_digest),
+        raw_digest: Some(read.raw_digest),
         raw_tmp,
     })
 }
 
 fn read_counts(path: &Path, gamma: f64) -> Result<Summary> {
-    let allowed = [&PARAM_KEYS[..], &COUNT_KEYS[..]].concat();
-    let (kv, _) = read_key_values(path, &allowed)?;
-    let mut vals = [None; 3];
-    for (k, v, line) in kv {
-        if let Some(i) = ["rounds", "test-rounds", "wins"]
-            .iter()
-            .position(|&x| x == k)
-        {
-            vals[i] = Some(parse_num::<u64>(path, line, &k, &v)?);
-        }
-    }
-    let get = |i: usize, name: &str| {
-        vals[i].ok_or_else(|| anyhow!("{}: the line {name} = ... is missing", path.display()))
-    };
-    let mut s = Summary::from_counts(get(0, "rounds")?, get(1, "test-rounds")?, get(2, "wins")?);
-    s.check_counts()
-        .map_err(|e| anyhow!("{}: {e}", path.display()))?;
+    let bytes = std::fs::read(path).with_context(|| format!("cannot read {}", path.display()))?;
+    let mut s = params::read_counts(&bytes[..]).map_err(|e| anyhow!("{}: {e}", path.display()))?;
     s.add_warnings(gamma);
     Ok(s)
 }
