@@ -575,7 +575,7 @@ fn run_plan_improved(
             "improved-2019 bound, {} test: certified bits per round if the run passes (W published); w_exp = {w_exp}, eps_s = {eps_s:e}, eps_EA = {eps_ea:e}",
             rows[chosen].test
         );
-        draw_rates(path, gamma, &caption, &|n, g| {
+        super::plot::certify_rates(path, gamma, &caption, &|n, g| {
             let acc = match eps_c {
                 Some(e) => Acceptance::for_completeness(n, g, w_exp, e, a.kind, a.nu, a.tail),
                 None => Ok(Acceptance {
@@ -882,16 +882,6 @@ fn plan_rate(p: &EatParams, n: u64, gamma: f64, eps_c: Option<f64>) -> f64 {
         .unwrap_or(0.0)
 }
 
-fn neighbours(gamma: f64) -> (f64, f64) {
-    if gamma * 2.0 <= 1.0 {
-        (gamma / 2.0, gamma * 2.0)
-    } else if gamma < 1.0 {
-        (gamma / 2.0, 1.0)
-    } else {
-        (gamma / 4.0, gamma / 2.0)
-    }
-}
-
 fn draw_plot(path: &Path, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
     let delta_text = match eps_c {
         Some(e) => format!("delta for completeness error {e:e}"),
@@ -901,83 +891,7 @@ fn draw_plot(path: &Path, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
         "first-2016 bound: certified bits per round if the run passes (W published); w_exp = {}, {delta_text}, eps_s = {:e}, eps_EA = {:e}",
         p.w_exp, p.eps_s, p.eps_ea
     );
-    draw_rates(path, p.gamma, &caption, &|n, g| plan_rate(p, n, g, eps_c))
-}
-
-/// Draws certified bits per round against N for gamma and its neighbours.
-fn draw_rates(
-    path: &Path,
-    gamma_given: f64,
-    caption: &str,
-    rate: &(dyn Fn(u64, f64) -> f64 + Sync),
-) -> Result<()> {
-    use plotters::prelude::*;
-    let (lo, hi) = neighbours(gamma_given);
-    let mut gammas = [lo, gamma_given, hi];
-    gammas.sort_by(|a, b| a.partial_cmp(b).unwrap());
-    let ns: Vec<f64> = (0..=140)
-        .map(|i| 10f64.powf(5.0 + i as f64 * 0.05))
-        .collect();
-    let series: Vec<(f64, Vec<(f64, f64)>)> = gammas
-        .iter()
-        .map(|&g| {
-            (
-                g,
-                ns.iter().map(|&n| (n, rate(n.round() as u64, g))).collect(),
-            )
-        })
-        .collect();
-    let ymax = series
-        .iter()
-        .flat_map(|(_, s)| s.iter().map(|&(_, y)| y))
-        .fold(0.0f64, f64::max);
-    let ymax = (ymax * 1.1).clamp(0.05, 1.0);
-    let tmp = temp_path(path);
-    {
-        let root = SVGBackend::new(&tmp, (960, 600)).into_drawing_area();
-        root.fill(&WHITE).map_err(|e| anyhow!("plot: {e}"))?;
-        let mut chart = ChartBuilder::on(&root)
-            .caption(caption, ("sans-serif", 14))
-            .margin(16)
-            .x_label_area_size(48)
-            .y_label_area_size(64)
-            .build_cartesian_2d((1e5f64..1e12f64).log_scale(), 0f64..ymax)
-            .map_err(|e| anyhow!("plot: {e}"))?;
-        chart
-            .configure_mesh()
-            .x_desc("number of rounds N (log scale)")
-            .y_desc("certified bits per round")
-            .x_label_formatter(&|x| format!("1e{}", x.log10().round()))
-            .draw()
-            .map_err(|e| anyhow!("plot: {e}"))?;
-        let colours = [BLUE, RED, RGBColor(0, 140, 0)];
-        for (i, (g, pts)) in series.iter().enumerate() {
-            let c = colours[i % 3];
-            let label = if (*g - gamma_given).abs() < 1e-15 {
-                format!("gamma = {g} (given)")
-            } else {
-                format!("gamma = {g}")
-            };
-            chart
-                .draw_series(LineSeries::new(pts.iter().copied(), c.stroke_width(2)))
-                .map_err(|e| anyhow!("plot: {e}"))?
-                .label(label)
-                .legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 20, y)], c.stroke_width(2))
-                });
-        }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperLeft)
-            .background_style(WHITE.mix(0.8))
-            .border_style(BLACK)
-            .draw()
-            .map_err(|e| anyhow!("plot: {e}"))?;
-        root.present().map_err(|e| anyhow!("plot: {e}"))?;
-    }
-    std::fs::rename(&tmp, path)
-        .with_context(|| format!("cannot move the plot into place at {}", path.display()))?;
-    Ok(())
+    super::plot::certify_rates(path, p.gamma, &caption, &|n, g| plan_rate(p, n, g, eps_c))
 }
 
 // ----------------------------------------------------------- certification
@@ -1011,7 +925,7 @@ impl Write for Discard {
 }
 
 /// `DIR/.NAME.tmp-PID` next to `path`.
-fn temp_path(path: &Path) -> PathBuf {
+pub(super) fn temp_path(path: &Path) -> PathBuf {
     let name = path
         .file_name()
         .map(|n| n.to_string_lossy().to_string())
@@ -1780,12 +1694,5 @@ mod tests {
         let w = wrap(t, 15);
         assert!(w.iter().all(|l| l.len() <= 15), "{w:?}");
         assert_eq!(w.join(" "), t);
-    }
-
-    #[test]
-    fn neighbouring_gammas_stay_in_range() {
-        assert_eq!(neighbours(0.1), (0.05, 0.2));
-        assert_eq!(neighbours(0.6), (0.3, 1.0));
-        assert_eq!(neighbours(1.0), (0.25, 0.5));
     }
 }
