@@ -1,6 +1,9 @@
 //! Speed of the round-file parser (target: at least 50 M rounds/s on one
-//! core from an uncompressed file, issue 6). Run with
-//! `cargo bench --bench certify`; it takes well under a minute.
+//! core from an uncompressed file, issue 6), of the whole one-pass record
+//! read (tally, kept string, digest; `certify` must stay I/O bound), and of
+//! the improved bound's planner (target: `certify --plan` answers in under
+//! a second). Run with `cargo bench --bench certify`; it takes about a
+//! minute.
 
 use criterion::{black_box, criterion_group, criterion_main, Criterion, Throughput};
 use sluice::bits::Bits;
@@ -59,8 +62,45 @@ fn parse(c: &mut Criterion) {
             black_box(t)
         })
     });
+    g.bench_function("one pass: tally, kept string and its digest", |b| {
+        b.iter(|| {
+            let r = sluice::certify::record::read_record(
+                BufReader::with_capacity(1 << 20, &data[..]),
+                ROUNDS,
+                sluice::certify::improved::Keep::Pairs,
+                std::io::sink(),
+                || {},
+            )
+            .unwrap();
+            black_box(r.raw_digest)
+        })
+    });
     g.finish();
 }
 
-criterion_group!(benches, parse);
+fn plan(c: &mut Criterion) {
+    // The planner at the second reference row (gamma 0.01, w 0.76, N 1e10,
+    // eps 1e-10): every acceptance test, nu optimised.
+    let mut g = c.benchmark_group("improved-plan");
+    g.sample_size(10);
+    g.measurement_time(std::time::Duration::from_secs(8));
+    g.bench_function("plan_tests gamma 0.01 N 1e10", |b| {
+        b.iter(|| {
+            let v = sluice::certify::improved::plan_tests(
+                10_000_000_000,
+                0.01,
+                0.76,
+                1e-10,
+                1e-10,
+                1e-10,
+                &|_| 34.0,
+            )
+            .unwrap();
+            black_box(v)
+        })
+    });
+    g.finish();
+}
+
+criterion_group!(benches, parse, plan);
 criterion_main!(benches);

@@ -114,8 +114,15 @@ fn certifies_a_simulated_record_and_writes_the_raw_string() {
     ]);
     let p = json(&plan);
     // planning charges ceil(log2(N + 1)) = 20 bits for W, like N_test = N here
-    assert_eq!(p["result"]["bits"].as_u64().unwrap(), c.min_entropy_bits);
+    let chosen = p["chosen"].as_u64().unwrap() as usize;
+    assert_eq!(
+        p["rows"][chosen]["bits"].as_u64().unwrap(),
+        c.min_entropy_bits
+    );
     assert!(c.min_entropy_bits > 400_000, "{}", c.min_entropy_bits);
+    // The certificate names its bound and recomputes from its own fields.
+    assert_eq!(c.bound_name(), "improved-2019");
+    assert_eq!(c.recompute().unwrap(), c.min_entropy_bits);
     assert_eq!(c.disclosure_charge_bits, 20);
     // No temporary files are left behind.
     let names: Vec<_> = std::fs::read_dir(dir.path())
@@ -310,6 +317,8 @@ fn worked_example(extra: &[&str]) -> Output {
         "1e-6",
         "--acceptance",
         "1e-6",
+        "--bound",
+        "first-2016",
         "--json",
     ];
     args.extend_from_slice(extra);
@@ -441,6 +450,8 @@ fn plan_reproduces_regression_vectors_and_draws() {
         "1e-6",
         "--acceptance",
         "1e-6",
+        "--bound",
+        "first-2016",
         "--json",
         "--plot",
         svg.to_str().unwrap(),
@@ -468,6 +479,8 @@ fn plan_reproduces_regression_vectors_and_draws() {
         "1e-6",
         "--acceptance",
         "1e-6",
+        "--bound",
+        "first-2016",
         "--json",
     ]);
     assert_eq!(json(&o)["result"]["bits"], 466_383);
@@ -506,6 +519,7 @@ fn counts_file_may_carry_the_parameters() {
         "summary.txt",
         b"# fictional bench QM-7, run 12\nrounds = 100000000\ntest-probability = 0.1\n\
           expected-win = 0.84\ntolerance = 0.002\nsmoothing = 1e-6\nacceptance = 1e-6\n\
+          bound = first-2016\n\
           test-rounds = 10000000\nwins = 8400000\n",
     );
     let raw = write(dir.path(), "raw.bin", &[]);

@@ -303,6 +303,32 @@ fn plan_two_source_table_6() {
         "--target-error",
         "1e-6",
     ];
+    // Every error term is given; none is taken as 0 silently (common
+    // practice: an unstated smoothing term would overstate the claim).
+    let o = plan(&args, d.path());
+    assert_eq!(o.status.code(), Some(2), "{}", err(&o));
+    assert!(
+        err(&o).contains("--smoothing, --second-smoothing, --cert-error missing"),
+        "{}",
+        err(&o)
+    );
+    let mut with_zero = args.to_vec();
+    with_zero.extend(["--smoothing", "0", "--cert-error", "0"]);
+    let o = plan(&with_zero, d.path());
+    assert!(
+        err(&o).contains("--second-smoothing missing"),
+        "{}",
+        err(&o)
+    );
+    let mut args = args.to_vec();
+    args.extend([
+        "--smoothing",
+        "0",
+        "--second-smoothing",
+        "0",
+        "--cert-error",
+        "0",
+    ]);
     let o = plan(&args, d.path());
     assert!(o.status.success(), "{}", err(&o));
     let out = String::from_utf8_lossy(&o.stdout);
@@ -338,6 +364,12 @@ fn plan_two_source_table_6() {
             "922.1",
             "--second-min-entropy",
             "922.1",
+            "--smoothing",
+            "0",
+            "--second-smoothing",
+            "0",
+            "--cert-error",
+            "0",
             "--target-error",
             "1e-6",
             "--quiet",
@@ -350,8 +382,9 @@ fn plan_two_source_table_6() {
 
     // Markov mode with smoothing needs the explicit assumption (spec 6.4
     // item 3).
-    let mut s = m.clone();
-    s.extend_from_slice(&["--smoothing", "1e-9"]);
+    let mut s: Vec<&str> = m.clone();
+    let i = s.iter().position(|a| *a == "--smoothing").unwrap();
+    s[i + 1] = "1e-9";
     let o = plan(&s, d.path());
     assert_eq!(o.status.code(), Some(2));
     assert!(err(&o).contains("--accept-markov-smoothing"), "{}", err(&o));

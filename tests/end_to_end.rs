@@ -86,6 +86,29 @@ fn record_to_verified_output() {
     );
     assert_eq!(o.status.code(), Some(2), "{}", err(&o));
 
+    // An explicit seed file with a certificate records no use of the seed:
+    // refused unless the operator declares their own record (issue "no way
+    // to overstate security", item 6).
+    let o = sluice(
+        p,
+        &[
+            "extract",
+            "run.raw",
+            "--certificate",
+            "run.cert.json",
+            "--target-error",
+            "1e-5",
+            "--seed-file",
+            "seed.bin",
+            "--allow-longer-seed",
+            "-o",
+            "out.bin",
+            "--quiet",
+        ],
+    );
+    assert_eq!(o.status.code(), Some(2), "{}", err(&o));
+    assert!(err(&o).contains("--own-seed-record"), "{}", err(&o));
+    assert!(!p.join("out.bin").exists());
     // Extraction with the certificate: n, k, eps_s, eps_cert come from it.
     let o = sluice(
         p,
@@ -99,6 +122,7 @@ fn record_to_verified_output() {
             "--seed-file",
             "seed.bin",
             "--allow-longer-seed",
+            "--own-seed-record",
             "-o",
             "out.bin",
             "--quiet",
@@ -131,6 +155,13 @@ fn record_to_verified_output() {
         "no output digest unless asked"
     );
     assert!(receipt["seed"]["id"].is_null() || receipt["seed"]["id"].as_str().unwrap().len() == 32);
+    // The seed's digest and the operator's declaration are in the receipt,
+    // and so are the certificate's model, bound and labels.
+    assert_eq!(receipt["seed"]["digest"].as_str().unwrap().len(), 64);
+    assert_eq!(receipt["seed"]["own_record"], true);
+    assert_eq!(receipt["certificate"]["mode"], "entropy-accumulation");
+    assert_eq!(receipt["certificate"]["bound"], cert["bound"]["name"]);
+    assert_eq!(receipt["certificate"]["labels"], cert["labels"]);
 
     // The receipt, the input and the seed reproduce the output.
     let v = sluice(

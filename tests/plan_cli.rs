@@ -27,6 +27,8 @@ const HEADLINE: &[&str] = &[
     "1048576",
     "--min-entropy-rate",
     "0.8",
+    "--cert-error",
+    "0",
     "--smoothing",
     "1e-10",
     "--target-error",
@@ -94,6 +96,8 @@ fn json_has_every_construction() {
             "1048576",
             "--min-entropy",
             "943718.4",
+            "--cert-error",
+            "0",
             "--smoothing",
             "2.5e-13",
             "--target-error",
@@ -172,6 +176,10 @@ fn refusals_name_the_option_and_the_reason() {
         "1024",
         "--min-entropy",
         "1100",
+        "--smoothing",
+        "0",
+        "--cert-error",
+        "0",
         "--target-error",
         "1e-6",
     ]);
@@ -184,6 +192,10 @@ fn refusals_name_the_option_and_the_reason() {
         "1024",
         "--min-entropy",
         "900",
+        "--smoothing",
+        "0",
+        "--cert-error",
+        "0",
         "--target-error",
         "1.5",
     ]);
@@ -196,6 +208,10 @@ fn refusals_name_the_option_and_the_reason() {
         "1024",
         "--min-entropy-rate",
         "1.2",
+        "--smoothing",
+        "0",
+        "--cert-error",
+        "0",
         "--target-error",
         "1e-6",
     ]);
@@ -207,6 +223,8 @@ fn refusals_name_the_option_and_the_reason() {
         "1048576",
         "--min-entropy-rate",
         "0.8",
+        "--cert-error",
+        "0",
         "--smoothing",
         "1e-10",
         "--target-error",
@@ -218,10 +236,106 @@ fn refusals_name_the_option_and_the_reason() {
         "1024",
         "--min-entropy",
         "900",
+        "--smoothing",
+        "0",
+        "--cert-error",
+        "0",
         "--target-error",
         "1e-6",
         "--blocks",
         "0",
     ]);
     assert!(e.contains("--blocks"), "{e}");
+}
+
+/// Issue "no way to overstate security", item 7: a typed-in figure without
+/// its error terms is refused (a silent 0 once printed a total of 7.6e-6
+/// against a 1e-5 target when the true total was 1.06e-5); an explicit 0 is
+/// taken, with a label that says what it claims.
+#[test]
+fn missing_error_terms_are_refused_and_explicit_zero_is_labelled() {
+    let e = refused(&[
+        "--input-bits",
+        "1048576",
+        "--min-entropy-rate",
+        "0.8",
+        "--target-error",
+        "1e-5",
+    ]);
+    assert!(
+        e.contains("--smoothing and --cert-error are missing"),
+        "{e}"
+    );
+    assert!(e.contains("Rule:") && e.contains("What to do:"), "{e}");
+    let e = refused(&[
+        "--input-bits",
+        "1048576",
+        "--min-entropy-rate",
+        "0.8",
+        "--smoothing",
+        "1e-6",
+        "--target-error",
+        "1e-5",
+    ]);
+    assert!(e.contains("--cert-error is missing"), "{e}");
+    let dir = tempfile::tempdir().unwrap();
+    let out = sluice(
+        &[
+            "plan",
+            "--input-bits",
+            "1048576",
+            "--min-entropy-rate",
+            "0.8",
+            "--smoothing",
+            "0",
+            "--cert-error",
+            "0",
+            "--target-error",
+            "1e-5",
+            "--json",
+        ],
+        dir.path(),
+    );
+    assert!(out.status.success(), "{}", text(&out.stderr));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let labels = v["labels"].to_string();
+    assert!(
+        labels.contains("--smoothing 0") && labels.contains("--cert-error 0"),
+        "{labels}"
+    );
+}
+
+/// Item 8: a manual figure over several blocks is the operator's claim, and
+/// says so. Item 9: rows that cannot be run are marked and never chosen.
+#[test]
+fn per_block_claims_are_labelled_and_impractical_rows_marked() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = sluice(
+        &[
+            "plan",
+            "--input-bits",
+            "1048576",
+            "--min-entropy-rate",
+            "0.4",
+            "--smoothing",
+            "1e-12",
+            "--cert-error",
+            "1e-12",
+            "--blocks",
+            "2",
+            "--target-error",
+            "1e-9",
+        ],
+        dir.path(),
+    );
+    assert!(out.status.success(), "{}", text(&out.stderr));
+    let stdout = text(&out.stdout);
+    assert!(
+        stdout.contains("per-block min-entropy is the operator's claim"),
+        "{stdout}"
+    );
+    // Trevisan with the inner-product one-bit extractor needs seeds of
+    // terabits at n = 2^20: marked impractical, never the choice.
+    assert!(stdout.contains("impractical"), "{stdout}");
+    assert!(!stdout.contains("choice: trevisan-ip"), "{stdout}");
 }

@@ -67,6 +67,23 @@ pub enum ErrorKind {
         /// How far above the maximum, in words.
         beyond: String,
     },
+    /// A record that contradicts the protocol it claims to come from
+    /// (misuse paths): names the rule and what to do.
+    #[error("refused: {what}. Rule: {rule}. What to do: {todo}")]
+    Refused {
+        /// What was found.
+        what: String,
+        /// The rule it breaks.
+        rule: &'static str,
+        /// What the operator should do.
+        todo: &'static str,
+    },
+    /// A parameters or counts file that does not follow its format.
+    #[error("{what}")]
+    Parameters {
+        /// What is wrong.
+        what: String,
+    },
     /// A certificate JSON document that does not parse or does not validate.
     #[error("{0}")]
     Certificate(String),

@@ -28,8 +28,12 @@ pub mod chsh;
 pub mod eat;
 mod error;
 pub mod iid;
+pub mod improved;
+pub mod params;
 pub mod record;
 pub mod simulate;
+pub mod tail;
+pub mod tradeoff;
 
 pub use error::{Error, ErrorKind, Position};
 
@@ -162,6 +166,12 @@ pub(crate) fn check_gamma(gamma: f64) -> Result<(), Error> {
             "the test probability gamma must satisfy 0 < gamma <= 1 (spec 8)",
         ))
     }
+}
+
+/// Refuses a win fraction more than 5 standard deviations above the
+/// quantum maximum (spec 8), for entropy accumulation.
+pub fn check_win_fraction(wins: u64, n_test: u64) -> Result<(), Error> {
+    check_not_above_quantum(wins, n_test, 5.0)
 }
 
 /// Refuses a win fraction above `W_QUANTUM + z sigma`,

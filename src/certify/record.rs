@@ -187,6 +187,70 @@ impl Summary {
     }
 }
 
+/// The range of N_test that the declared gamma allows at failure
+/// probability `level` for honest test flags: `N_test ~ Binomial(N, gamma)`,
+/// `P(N_test < lo) <= level/2` and `P(N_test > hi) <= level/2` (exact
+/// binomial tails, [`super::tail`]).
+pub fn test_rounds_range(n_rounds: u64, gamma: f64, level: f64) -> (u64, u64) {
+    use super::tail::wins_threshold;
+    if gamma >= 1.0 {
+        return (n_rounds, n_rounds);
+    }
+    let (lo, _) = wins_threshold(n_rounds, gamma, level / 2.0, true);
+    let (lo_c, _) = wins_threshold(n_rounds, 1.0 - gamma, level / 2.0, true);
+    (lo, n_rounds - lo_c)
+}
+
+impl Summary {
+    /// Refuses a record that contradicts the protocol's trusted inputs, at
+    /// failure probability at most `level` for honest flags and inputs
+    /// (this probability is added to the completeness error):
+    ///
+    /// - the number of test rounds lies outside [`test_rounds_range`]
+    ///   (probability `level/2`);
+    /// - with the pair counts known, a pair count `N_xy` lies outside the
+    ///   range `Binomial(N_test, 1/4)` allows at `level/8` (two-sided, each
+    ///   of four; `level/2` in all): test inputs that are not uniform and
+    ///   independent (spec 1: the bounds assume `P(x, y) = 1/4`).
+    pub fn check_protocol(&self, gamma: f64, level: f64) -> Result<(u64, u64), Error> {
+        let (lo, hi) = test_rounds_range(self.n_rounds, gamma, level);
+        if self.n_test < lo || self.n_test > hi {
+            return Err(Error::new(ErrorKind::Refused {
+                what: format!(
+                    "the record has {} test rounds in {} rounds (fraction {:.6}), but test flags drawn with the declared probability gamma = {gamma} give between {lo} and {hi} except with probability {level:e}",
+                    self.n_test,
+                    self.n_rounds,
+                    self.n_test as f64 / self.n_rounds.max(1) as f64
+                ),
+                rule: "the test flags must come from a trusted source with the probability gamma fixed before the run; the acceptance test and the bound use that gamma",
+                todo: "declare the gamma that was actually used (fixed before the run), or find out why the flags do not follow it; do not certify this record as it is",
+            })
+            .in_field("test-rounds"));
+        }
+        if self.has_pair_counts && self.n_test > 0 {
+            let (plo, phi) = test_rounds_range(self.n_test, 0.25, level / 4.0);
+            for x in 0..2 {
+                for y in 0..2 {
+                    let c = self.pair_counts[x][y];
+                    if c < plo || c > phi {
+                        return Err(Error::new(ErrorKind::Refused {
+                            what: format!(
+                                "test inputs ({x}, {y}) occur {c} times in {} test rounds; uniform, independent inputs give between {plo} and {phi} except with probability {:e}",
+                                self.n_test,
+                                level / 4.0
+                            ),
+                            rule: "test inputs must be uniform and independent, P(x, y) = 1/4 (the bound on the win probability assumes it)",
+                            todo: "check the input generator; a record with biased inputs cannot be certified",
+                        })
+                        .in_field("inputs"));
+                    }
+                }
+            }
+        }
+        Ok((lo, hi))
+    }
+}
+
 /// Survival function of the chi-square distribution with 3 degrees of
 /// freedom: `P(X > x) = erfc(sqrt(x/2)) + sqrt(2x/pi) exp(-x/2)`
 /// (closed form for odd degrees of freedom, common practice; checked against
@@ -561,6 +625,123 @@ impl<R: BufRead> RecordReader<R> {
     }
 }
 
+/// Alice's bits `a_1 .. a_k` of a pair string `a_1 b_1 .. a_k b_k` (the
+/// even bits), into the caller's `out` (word at a time).
+pub fn alice_bits(pairs: &Bits, out: &mut Bits) {
+    fn even(mut x: u64) -> u64 {
+        x &= 0x5555_5555_5555_5555;
+        x = (x | (x >> 1)) & 0x3333_3333_3333_3333;
+        x = (x | (x >> 2)) & 0x0f0f_0f0f_0f0f_0f0f;
+        x = (x | (x >> 4)) & 0x00ff_00ff_00ff_00ff;
+        x = (x | (x >> 8)) & 0x0000_ffff_0000_ffff;
+        (x | (x >> 16)) & 0x0000_0000_ffff_ffff
+    }
+    let k = pairs.len() / 2;
+    out.resize(k);
+    let src = pairs.words();
+    let dst = out.words_mut();
+    for (i, d) in dst.iter_mut().enumerate() {
+        let lo = src.get(2 * i).map_or(0, |&w| even(w));
+        let hi = src.get(2 * i + 1).map_or(0, |&w| even(w));
+        *d = lo | (hi << 32);
+    }
+    out.clear_tail();
+}
+
+/// A writer that feeds a data digest with what it writes.
+struct DigestWriter<W> {
+    inner: W,
+    digest: crate::bits::digest::DataDigest,
+}
+
+impl<W: std::io::Write> std::io::Write for DigestWriter<W> {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        let n = self.inner.write(buf)?;
+        self.digest.update(&buf[..n]);
+        Ok(n)
+    }
+    fn flush(&mut self) -> std::io::Result<()> {
+        self.inner.flush()
+    }
+}
+
+/// What [`read_record`] found.
+pub struct RecordRead<W> {
+    /// Counts of every kind of round.
+    pub tally: Tally,
+    /// Rounds read (all of them, also beyond `n_expected`).
+    pub rounds: u64,
+    /// Data digest (hex) of the raw string written, `keep.string_bits(n_expected)` bits.
+    pub raw_digest: String,
+    /// The sink, flushed.
+    pub sink: W,
+}
+
+/// Rounds parsed per step (a multiple of 4, so the raw string stays
+/// byte-aligned between steps).
+const CHUNK_ROUNDS: usize = 1 << 20;
+
+/// Reads a round file (already decompressed) from `text` in one pass:
+/// counts every round, and writes the raw string the certificate covers
+/// (the outputs of the first `n_expected` rounds: `a1 b1 .. aN bN`, or
+/// `a1 .. aN` for [`Keep::Alice`]; packed, MSB first) to `sink` while
+/// digesting it. `progress` is called after every step of about a million
+/// rounds. The caller checks `rounds` against `n_expected`.
+pub fn read_record<R: BufRead, W: std::io::Write>(
+    text: R,
+    n_expected: u64,
+    keep: super::improved::Keep,
+    sink: W,
+    mut progress: impl FnMut(),
+) -> Result<RecordRead<W>, Error> {
+    use super::improved::Keep;
+    use crate::bits::io::BitWriter;
+    use crate::bits::{BitOrder, Format};
+    let mut reader = RecordReader::new(text);
+    let mut tally = Tally::new();
+    let mut pairs = Bits::new();
+    let mut alice = Bits::new();
+    let mut writer = BitWriter::new(
+        DigestWriter {
+            inner: sink,
+            digest: crate::bits::digest::DataDigest::new(keep.string_bits(n_expected)),
+        },
+        Format::Packed,
+        BitOrder::Msb,
+    );
+    let mut written = 0u64;
+    loop {
+        let n = reader.read_rounds(CHUNK_ROUNDS, &mut tally, Some(&mut pairs))?;
+        if n == 0 {
+            break;
+        }
+        if written < n_expected {
+            let take = (n_expected - written).min(n as u64) as usize;
+            if take < n {
+                pairs.truncate(2 * take);
+            }
+            let bits = match keep {
+                Keep::Pairs => &pairs,
+                Keep::Alice => {
+                    alice_bits(&pairs, &mut alice);
+                    &alice
+                }
+            };
+            writer.write_bits(bits)?;
+            written += take as u64;
+        }
+        progress();
+    }
+    let DigestWriter { mut inner, digest } = writer.finish()?;
+    inner.flush()?;
+    Ok(RecordRead {
+        rounds: tally.rounds(),
+        tally,
+        raw_digest: digest.finish_hex(),
+        sink: inner,
+    })
+}
+
 /// Writes rounds as a round file (canonical lines), for the simulator and
 /// tests.
 pub fn format_round(r: &Round, out: &mut Vec<u8>) {
@@ -751,6 +932,81 @@ mod tests {
         let s = t.summary(0.1).unwrap();
         assert_eq!(s.input_warnings.len(), 2);
         assert!(s.input_warnings[1].contains("far from gamma"));
+    }
+
+    proptest! {
+        // The word-level de-interleave against taking every other bit.
+        #[test]
+        fn alice_bits_match_every_other_bit(v in proptest::collection::vec(any::<bool>(), 0..600)) {
+            let mut v = v;
+            if v.len() % 2 == 1 { v.pop(); }
+            let pairs = Bits::from_bools(&v);
+            let mut out = Bits::new();
+            alice_bits(&pairs, &mut out);
+            let want: Vec<bool> = v.iter().step_by(2).copied().collect();
+            prop_assert_eq!(out.iter().collect::<Vec<_>>(), want);
+        }
+    }
+
+    #[test]
+    fn read_record_writes_and_digests_the_kept_string() {
+        // Against the bit-by-bit twin: the pairs of the first n rounds, or
+        // every other bit of them.
+        use crate::bits::digest::data_digest;
+        use crate::certify::improved::Keep;
+        let text = b"00011\n10110\n00010\n11101\n00001\n10000\n";
+        for (keep, n) in [(Keep::Pairs, 6u64), (Keep::Alice, 6), (Keep::Pairs, 4)] {
+            let mut calls = 0;
+            let r = read_record(&text[..], n, keep, Vec::new(), || calls += 1).unwrap();
+            assert_eq!(r.rounds, 6);
+            assert!(calls >= 1);
+            let pairs: Vec<bool> = text
+                .split(|&c| c == b'\n')
+                .filter(|l| l.len() == 5)
+                .take(n as usize)
+                .flat_map(|l| [l[3] == b'1', l[4] == b'1'])
+                .collect();
+            let bits: Vec<bool> = match keep {
+                Keep::Pairs => pairs,
+                Keep::Alice => pairs.iter().step_by(2).copied().collect(),
+            };
+            let b = Bits::from_bools(&bits);
+            assert_eq!(r.sink, b.to_packed(crate::bits::BitOrder::Msb));
+            assert_eq!(r.raw_digest, data_digest(&b));
+        }
+    }
+
+    #[test]
+    fn protocol_checks_refuse_the_misuse_records() {
+        // Issue "no way to overstate security", item 1: every round a test
+        // round, declared gamma 0.5.
+        let mut t = Tally::new();
+        t.hist[0b10000] = 250_000;
+        t.hist[0b10100] = 250_000;
+        t.hist[0b11000] = 250_000;
+        t.hist[0b11100] = 250_000;
+        let s = t.summary(0.5).unwrap();
+        let e = s.check_protocol(0.5, 1e-6).unwrap_err();
+        assert!(e.to_string().contains("1000000 test rounds"), "{e}");
+        assert!(e.to_string().contains("Rule:"), "{e}");
+        // Item 2: P(x = y = 1) = 0.15 with gamma = 1.
+        let mut t = Tally::new();
+        t.hist[0b10000] = 283_333;
+        t.hist[0b10100] = 283_333;
+        t.hist[0b11000] = 283_334;
+        t.hist[0b11100] = 150_000;
+        let s = t.summary(1.0).unwrap();
+        let e = s.check_protocol(1.0, 1e-6).unwrap_err();
+        assert!(e.to_string().contains("test inputs ("), "{e}");
+        // An honest-looking record passes.
+        let mut t = Tally::new();
+        t.hist[0] = 900_000;
+        for i in [0b10000, 0b10100, 0b11000, 0b11100] {
+            t.hist[i] = 25_000;
+        }
+        let s = t.summary(0.1).unwrap();
+        let (lo, hi) = s.check_protocol(0.1, 1e-6).unwrap();
+        assert!(lo < 100_000 && hi > 100_000);
     }
 
     #[test]

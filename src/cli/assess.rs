@@ -165,22 +165,22 @@ fn read_input(o: &InputOpts) -> anyhow::Result<Bits> {
 // ---------------------------------------------------------------- raw
 
 #[derive(Serialize)]
-struct RawReport {
-    file: String,
-    bits: usize,
-    claimed_entropy: Option<f64>,
-    health_entropy: f64,
-    health_entropy_source: &'static str,
-    repetition_count: health::HealthOutcome,
-    adaptive_proportion: health::HealthOutcome,
-    adaptive_proportion_window: usize,
-    health_passed: bool,
-    estimator_samples: usize,
-    assessment: estimators::Assessment,
-    comparison: String,
-    red_flag: bool,
-    notes: Vec<String>,
-    caution: &'static str,
+pub(super) struct RawReport {
+    pub(super) file: String,
+    pub(super) bits: usize,
+    pub(super) claimed_entropy: Option<f64>,
+    pub(super) health_entropy: f64,
+    pub(super) health_entropy_source: &'static str,
+    pub(super) repetition_count: health::HealthOutcome,
+    pub(super) adaptive_proportion: health::HealthOutcome,
+    pub(super) adaptive_proportion_window: usize,
+    pub(super) health_passed: bool,
+    pub(super) estimator_samples: usize,
+    pub(super) assessment: estimators::Assessment,
+    pub(super) comparison: String,
+    pub(super) red_flag: bool,
+    pub(super) notes: Vec<String>,
+    pub(super) caution: &'static str,
 }
 
 fn run_raw(a: RawArgs) -> anyhow::Result<ExitCode> {
@@ -264,8 +264,10 @@ fn run_raw(a: RawArgs) -> anyhow::Result<ExitCode> {
         caution: CAUTION_RAW,
     };
     if let Some(p) = &a.input.plot {
-        common::write_svg(p, a.input.force, |svg| plot_raw(svg, &report))
-            .with_context(|| format!("drawing {}", p.display()))?;
+        common::write_svg(p, a.input.force, |svg| {
+            super::plot::assess_raw(svg, &report)
+        })
+        .with_context(|| format!("drawing {}", p.display()))?;
     }
     if a.input.json {
         common::print_json(&report)?;
@@ -344,41 +346,41 @@ fn print_raw(r: &RawReport) {
 // ------------------------------------------------------------- output
 
 #[derive(Serialize)]
-struct KindSummary {
-    test: TestId,
-    section: &'static str,
-    label: String,
+pub(super) struct KindSummary {
+    pub(super) test: TestId,
+    pub(super) section: &'static str,
+    pub(super) label: String,
     #[serde(flatten)]
-    summary: Summary,
+    pub(super) summary: Summary,
     /// The P-value itself, when one sequence was tested.
     #[serde(skip_serializing_if = "Option::is_none")]
-    p_value: Option<f64>,
-    flagged: bool,
+    pub(super) p_value: Option<f64>,
+    pub(super) flagged: bool,
 }
 
 #[derive(Serialize)]
-struct NotRun {
-    test: TestId,
-    section: &'static str,
-    sequences: usize,
-    reason: String,
+pub(super) struct NotRun {
+    pub(super) test: TestId,
+    pub(super) section: &'static str,
+    pub(super) sequences: usize,
+    pub(super) reason: String,
 }
 
 #[derive(Serialize)]
-struct OutputReport {
-    file: String,
-    bits: usize,
-    sequences: usize,
-    sequence_bits: usize,
-    alpha: f64,
-    parameters: Vec<(TestId, String)>,
-    kinds: Vec<KindSummary>,
-    not_applicable: Vec<NotRun>,
+pub(super) struct OutputReport {
+    pub(super) file: String,
+    pub(super) bits: usize,
+    pub(super) sequences: usize,
+    pub(super) sequence_bits: usize,
+    pub(super) alpha: f64,
+    pub(super) parameters: Vec<(TestId, String)>,
+    pub(super) kinds: Vec<KindSummary>,
+    pub(super) not_applicable: Vec<NotRun>,
     /// With one sequence: its reports in full.
-    single: Option<Vec<TestReport>>,
-    flagged: usize,
-    overall: String,
-    caution: &'static str,
+    pub(super) single: Option<Vec<TestReport>>,
+    pub(super) flagged: usize,
+    pub(super) overall: String,
+    pub(super) caution: &'static str,
 }
 
 fn run_output(a: OutputArgs) -> anyhow::Result<ExitCode> {
@@ -426,8 +428,10 @@ fn run_output(a: OutputArgs) -> anyhow::Result<ExitCode> {
     pb.finish_and_clear();
     let report = summarise_output(&a.input.file, n, count, len, reports);
     if let Some(p) = &a.input.plot {
-        common::write_svg(p, a.input.force, |svg| plot_output(svg, &report))
-            .with_context(|| format!("drawing {}", p.display()))?;
+        common::write_svg(p, a.input.force, |svg| {
+            super::plot::assess_output(svg, &report)
+        })
+        .with_context(|| format!("drawing {}", p.display()))?;
     }
     if a.input.json {
         common::print_json(&report)?;
@@ -624,249 +628,4 @@ fn print_kind(name: &str, k: &KindSummary, sequences: usize) {
             s.interval.1.min(1.0),
         );
     }
-}
-
-// -------------------------------------------------------------- plots
-
-fn plot_err<E: std::fmt::Debug>(e: E) -> anyhow::Error {
-    anyhow::anyhow!("{e:?}")
-}
-
-fn plot_output(svg: &mut String, r: &OutputReport) -> anyhow::Result<()> {
-    use plotters::prelude::*;
-    let root = SVGBackend::with_string(svg, (1000, 760)).into_drawing_area();
-    root.fill(&WHITE).map_err(plot_err)?;
-    let (top, bottom) = root.split_vertically(360);
-
-    // P-value histogram, all kinds and sequences pooled.
-    let mut bins = [0u64; 10];
-    for k in &r.kinds {
-        for (b, c) in bins.iter_mut().zip(k.summary.bins) {
-            *b += c;
-        }
-    }
-    let total: u64 = bins.iter().sum();
-    let ymax = (*bins.iter().max().unwrap_or(&1)).max(1) as f64 * 1.2;
-    let mut ch = ChartBuilder::on(&top)
-        .caption(
-            format!(
-                "P-values of all tests ({} values, {} sequence(s) of {} bits)",
-                total, r.sequences, r.sequence_bits
-            ),
-            ("sans-serif", 18),
-        )
-        .margin(12)
-        .x_label_area_size(36)
-        .y_label_area_size(60)
-        .build_cartesian_2d(0f64..1f64, 0f64..ymax)
-        .map_err(plot_err)?;
-    ch.configure_mesh()
-        .x_desc("P-value (10 bins)")
-        .y_desc("count")
-        .disable_x_mesh()
-        .draw()
-        .map_err(plot_err)?;
-    ch.draw_series(bins.iter().enumerate().map(|(i, &c)| {
-        let x0 = i as f64 / 10.0;
-        Rectangle::new(
-            [(x0 + 0.005, 0.0), (x0 + 0.095, c as f64)],
-            BLUE.mix(0.5).filled(),
-        )
-    }))
-    .map_err(plot_err)?
-    .label("observed")
-    .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 12, y + 5)], BLUE.mix(0.5).filled()));
-    let expect = total as f64 / 10.0;
-    ch.draw_series(LineSeries::new(
-        [(0.0, expect), (1.0, expect)],
-        BLACK.stroke_width(2),
-    ))
-    .map_err(plot_err)?
-    .label("expected if uniform")
-    .legend(|(x, y)| PathElement::new([(x, y), (x + 12, y)], BLACK.stroke_width(2)));
-    ch.configure_series_labels()
-        .background_style(WHITE.mix(0.8))
-        .border_style(BLACK)
-        .position(SeriesLabelPosition::UpperRight)
-        .draw()
-        .map_err(plot_err)?;
-
-    // Per-kind pass proportions (or P-values for one sequence).
-    let n = r.kinds.len().max(1);
-    if r.sequences > 1 {
-        let (lo, hi) = many::proportion_interval(r.alpha, r.sequences);
-        let ymin = r
-            .kinds
-            .iter()
-            .map(|k| k.summary.proportion)
-            .fold(lo, f64::min)
-            - 0.02;
-        let mut ch = ChartBuilder::on(&bottom)
-            .caption(
-                "Pass proportion per test and P-value kind, with the acceptance band (SP 800-22 4.2.1)",
-                ("sans-serif", 18),
-            )
-            .margin(12)
-            .x_label_area_size(40)
-            .y_label_area_size(60)
-            .build_cartesian_2d(0f64..n as f64, ymin.max(0.0)..1.012f64)
-            .map_err(plot_err)?;
-        ch.configure_mesh()
-            .x_desc("P-value kind, grouped by test (SP 800-22 section numbers at the top)")
-            .y_desc("proportion passing")
-            .disable_x_mesh()
-            .draw()
-            .map_err(plot_err)?;
-        ch.draw_series(std::iter::once(Rectangle::new(
-            [(0.0, lo), (n as f64, hi.min(1.005))],
-            GREEN.mix(0.15).filled(),
-        )))
-        .map_err(plot_err)?
-        .label(format!("acceptable range [{lo:.4}, {:.4}] for all {} sequences (kinds run on fewer have wider ranges)", hi.min(1.0), r.sequences))
-        .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 12, y + 5)], GREEN.mix(0.3).filled()));
-        ch.draw_series(LineSeries::new(
-            [(0.0, lo), (n as f64, lo)],
-            GREEN.stroke_width(2),
-        ))
-        .map_err(plot_err)?;
-        // thin separators and section numbers between tests
-        let mut starts: Vec<(usize, &str)> = Vec::new();
-        for (i, k) in r.kinds.iter().enumerate() {
-            if i == 0 || r.kinds[i - 1].test != k.test {
-                starts.push((i, k.section));
-            }
-        }
-        for (j, &(i, sec)) in starts.iter().enumerate() {
-            let width = starts.get(j + 1).map_or(r.kinds.len(), |s| s.0) - i;
-            ch.draw_series(LineSeries::new(
-                [(i as f64, ymin.max(0.0)), (i as f64, 1.005)],
-                BLACK.mix(0.25),
-            ))
-            .map_err(plot_err)?;
-            if width < 5 {
-                continue; // no room for a label
-            }
-            ch.draw_series(std::iter::once(Text::new(
-                sec.to_string(),
-                (i as f64 + 0.3, 1.003),
-                ("sans-serif", 11).into_font(),
-            )))
-            .map_err(plot_err)?;
-        }
-        ch.draw_series(r.kinds.iter().enumerate().map(|(i, k)| {
-            let c = if k.flagged {
-                RED.filled()
-            } else {
-                BLUE.filled()
-            };
-            Circle::new((i as f64 + 0.5, k.summary.proportion), 3, c)
-        }))
-        .map_err(plot_err)?
-        .label("proportion (red: flagged)")
-        .legend(|(x, y)| Circle::new((x + 6, y), 3, BLUE.filled()));
-        ch.configure_series_labels()
-            .background_style(WHITE.mix(0.8))
-            .border_style(BLACK)
-            .position(SeriesLabelPosition::LowerLeft)
-            .draw()
-            .map_err(plot_err)?;
-    } else {
-        let mut ch = ChartBuilder::on(&bottom)
-            .caption(
-                "P-value per test and P-value kind (one sequence); line: alpha = 0.01",
-                ("sans-serif", 18),
-            )
-            .margin(12)
-            .x_label_area_size(40)
-            .y_label_area_size(60)
-            .build_cartesian_2d(0f64..n as f64, 0f64..1f64)
-            .map_err(plot_err)?;
-        ch.configure_mesh()
-            .x_desc("P-value kind (tests in SP 800-22 order)")
-            .y_desc("P-value")
-            .disable_x_mesh()
-            .draw()
-            .map_err(plot_err)?;
-        ch.draw_series(LineSeries::new(
-            [(0.0, r.alpha), (n as f64, r.alpha)],
-            RED.stroke_width(2),
-        ))
-        .map_err(plot_err)?;
-        ch.draw_series(r.kinds.iter().enumerate().map(|(i, k)| {
-            let c = if k.flagged {
-                RED.filled()
-            } else {
-                BLUE.filled()
-            };
-            Circle::new((i as f64 + 0.5, k.p_value.unwrap_or(0.0)), 3, c)
-        }))
-        .map_err(plot_err)?;
-    }
-    root.present().map_err(plot_err)?;
-    Ok(())
-}
-
-fn plot_raw(svg: &mut String, r: &RawReport) -> anyhow::Result<()> {
-    use plotters::prelude::*;
-    let root = SVGBackend::with_string(svg, (900, 480)).into_drawing_area();
-    root.fill(&WHITE).map_err(plot_err)?;
-    let est: Vec<(&str, f64)> = r
-        .assessment
-        .estimates
-        .iter()
-        .filter_map(|e| e.min_entropy.map(|h| (e.name, h)))
-        .collect();
-    let n = est.len().max(1);
-    let mut ch = ChartBuilder::on(&root)
-        .caption(
-            "Min-entropy estimates per bit (SP 800-90B 6.3)",
-            ("sans-serif", 18),
-        )
-        .margin(14)
-        .x_label_area_size(60)
-        .y_label_area_size(60)
-        .build_cartesian_2d((0..n).into_segmented(), 0f64..1.05f64)
-        .map_err(plot_err)?;
-    ch.configure_mesh()
-        .disable_x_mesh()
-        .y_desc("bits per bit")
-        .x_labels(n)
-        .x_label_formatter(&|v| match v {
-            SegmentValue::CenterOf(i) => est
-                .get(*i)
-                .map(|e| e.0.split(" (").next().unwrap_or("").to_string())
-                .unwrap_or_default(),
-            _ => String::new(),
-        })
-        .draw()
-        .map_err(plot_err)?;
-    ch.draw_series(est.iter().enumerate().map(|(i, &(_, h))| {
-        let mut bar = Rectangle::new(
-            [
-                (SegmentValue::Exact(i), 0.0),
-                (SegmentValue::Exact(i + 1), h),
-            ],
-            BLUE.mix(0.5).filled(),
-        );
-        bar.set_margin(0, 0, 12, 12);
-        bar
-    }))
-    .map_err(plot_err)?;
-    if let Some(c) = r.claimed_entropy {
-        ch.draw_series(LineSeries::new(
-            [(SegmentValue::Exact(0), c), (SegmentValue::Exact(n), c)],
-            RED.stroke_width(2),
-        ))
-        .map_err(plot_err)?
-        .label(format!("claimed {c}"))
-        .legend(|(x, y)| PathElement::new([(x, y), (x + 12, y)], RED.stroke_width(2)));
-        ch.configure_series_labels()
-            .background_style(WHITE.mix(0.8))
-            .border_style(BLACK)
-            .position(SeriesLabelPosition::LowerRight)
-            .draw()
-            .map_err(plot_err)?;
-    }
-    root.present().map_err(plot_err)?;
-    Ok(())
 }

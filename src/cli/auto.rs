@@ -26,6 +26,9 @@ pub struct AutoPlan {
     certificate: Option<(PathBuf, sluice::certify::certificate::Certificate, String)>,
     input_digest: String,
     total_bits: u64,
+    labels: Vec<String>,
+    seed_digest: Option<String>,
+    own_seed_record: bool,
 }
 
 /// The constructions `sluice extract` can run.
@@ -168,6 +171,12 @@ pub fn plan_run_seeded(
             let cons = construction_of(e, c)?;
             let p = select::plan_one(&cons, &input, model)
                 .map_err(|e| plan_error(e, resolved.rate_given))?;
+            if let Some(why) = &p.impractical {
+                bail!(
+                    "--extractor {}: {why}; choose another extractor or smaller blocks",
+                    cons.name()
+                );
+            }
             (cons, p, "named with --extractor".to_string())
         }
         None => {
@@ -205,6 +214,9 @@ pub fn plan_run_seeded(
             certificate: resolved.certificate,
             input_digest,
             total_bits: total,
+            labels: resolved.labels,
+            seed_digest: None,
+            own_seed_record: false,
         },
     ))
 }
@@ -226,7 +238,8 @@ fn pick(
         .rows
         .iter()
         .filter(|r| runnable(&r.construction).is_some())
-        .filter_map(|r| r.outcome.as_ref().ok().map(|p| (r.construction, p.clone())));
+        .filter_map(|r| r.outcome.as_ref().ok().map(|p| (r.construction, p.clone())))
+        .filter(|(_, p)| p.impractical.is_none());
     let best = match objective {
         Objective::MostOutput => {
             candidates.max_by(|a, b| a.1.m.cmp(&b.1.m).then(b.1.d.cmp(&a.1.d)))
@@ -273,6 +286,18 @@ impl AutoPlan {
         p
     }
 
+    /// Records the explicit seed used (its data digest) and whether the
+    /// operator keeps their own record of its uses.
+    pub fn set_seed_file(&mut self, digest: String, own_record: bool) {
+        self.seed_digest = Some(digest);
+        self.own_seed_record = own_record;
+    }
+
+    /// Whether a certificate fixed the figures.
+    pub fn has_certificate(&self) -> bool {
+        self.certificate.is_some()
+    }
+
     /// Whether the raw data carry a device-independent certificate.
     pub fn device_independent(&self) -> bool {
         self.certificate
@@ -307,6 +332,9 @@ impl AutoPlan {
         let b = &self.input.budget;
         let p = &self.planned;
         let mut e = std::io::stderr().lock();
+        for l in &self.labels {
+            let _ = writeln!(e, "label: {l}");
+        }
         let _ = writeln!(e, "chosen: {}: {}", self.construction.name(), self.reason);
         let _ = writeln!(
             e,
@@ -396,17 +424,31 @@ impl AutoPlan {
                     Some((_, src)) => {
                         format!("registered seed ({src}), use recorded in the ledger")
                     }
+                    None if self.own_seed_record => "explicit seed file (not registered in a ledger; the operator declared they keep their own record of its uses)".to_string(),
                     None => "explicit seed file (not registered in a ledger)".to_string(),
                 },
                 deficiency: b.seed_deficiency,
+                digest: self.seed_digest.clone(),
+                own_record: self.own_seed_record,
             },
             certificate: self.certificate.as_ref().map(|(_, cert, digest)| {
                 receipt::CertificateRecord {
                     file_digest: digest.clone(),
                     setup: cert.setup.label().to_string(),
                     device_independent: cert.device_independent,
+                    mode: Some(
+                        match cert.mode {
+                            sluice::certify::Mode::EntropyAccumulation => "entropy-accumulation",
+                            sluice::certify::Mode::IidEstimate => "iid-estimate",
+                        }
+                        .to_string(),
+                    ),
+                    bound: Some(cert.bound_name().to_string()),
+                    record_form: Some(cert.record.form.clone()),
+                    labels: cert.labels.clone(),
                 }
             }),
+            labels: self.labels.clone(),
             errors: receipt::Errors {
                 formula: "eps_cert + eps_seed + L (2 eps_s + 2^s eps_ext)".to_string(),
                 eps_cert: b.eps_cert,
@@ -435,6 +477,26 @@ impl AutoPlan {
             .with_context(|| format!("{}: cannot write the receipt", path.display()))?;
         Ok(())
     }
+}
+
+/// The labels a receipt carries (its own and its certificate's).
+pub fn labels_from_receipt(path: &Path) -> anyhow::Result<Vec<String>> {
+    let text = std::fs::read_to_string(path)
+        .with_context(|| format!("{}: cannot read the receipt", path.display()))?;
+    let r =
+        Receipt::from_json_str(&text).map_err(|e| anyhow::anyhow!("{}: {e}", path.display()))?;
+    let mut l = r.labels.clone();
+    if let Some(c) = &r.certificate {
+        for x in &c.labels {
+            if !l.contains(x) {
+                l.push(x.clone());
+            }
+        }
+        if !c.device_independent && !l.iter().any(|x| x.contains("not device-independent")) {
+            l.push("not device-independent".into());
+        }
+    }
+    Ok(l)
 }
 
 /// The layout a receipt records, and the input digest it names.

@@ -8,17 +8,26 @@ use super::common::{print_json, progress};
 use anyhow::{anyhow, bail, Context, Result};
 use serde::Serialize;
 use sluice::bits::digest::DataDigest;
-use sluice::bits::io::BitWriter;
-use sluice::bits::{BitOrder, Bits, Format};
+use sluice::certify::certificate::{
+    BoundRecord, ChecksRecord, ALICE_LAYOUT, BOUND_FIRST, BOUND_IMPROVED, COUNTS_LABEL,
+};
 use sluice::certify::certificate::{
     Certificate, CertifiedString, Parameters, PublicValues, RecordInfo, ResultTerms, PAIR_LAYOUT,
     SCHEMA,
 };
 use sluice::certify::eat::{
-    completeness, delta_for_completeness, eat_certify, eat_plan, EatParams, EatResult, MARGIN_BITS,
+    completeness, delta_for_completeness, eat_certify, eat_plan, log2_values_ceil, EatParams,
+    EatResult, ZeroReason, MARGIN_BITS,
 };
 use sluice::certify::iid::{iid_estimate, IID_LABEL};
-use sluice::certify::record::{RecordReader, Summary, Tally};
+use sluice::certify::improved::{
+    asymptotic_rate, figure, improved_optimise, input_randomness_bits, plan_tests, Acceptance,
+    ImprovedParams, ImprovedTerms, Keep, PlannedTest, TestKind,
+};
+use sluice::certify::params::{self, Declared, KeyValue, COUNT_KEYS, PARAM_KEYS};
+use sluice::certify::record::test_rounds_range;
+use sluice::certify::record::{read_record as read_rounds, Summary};
+use sluice::certify::tail::TailMethod;
 use sluice::certify::{cautions, Mode, PublicStat, Setup};
 use std::cell::RefCell;
 use std::fs::File;
@@ -26,9 +35,6 @@ use std::io::{BufRead, BufReader, Read, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use std::rc::Rc;
-
-/// Rounds parsed per step (a multiple of 4, so raw output stays byte-aligned).
-const CHUNK_ROUNDS: usize = 1 << 20;
 
 /// Certify the record of a CHSH Bell test, or plan a run.
 ///
@@ -73,10 +79,35 @@ pub struct CertifyArgs {
     #[arg(long, value_name = "DELTA")]
     tolerance: Option<f64>,
 
-    /// With --plan: choose delta so honest devices abort with at most this
-    /// probability (instead of --tolerance).
+    /// Choose the acceptance threshold so that honest devices abort with at
+    /// most this probability (instead of --tolerance; fixed before the run).
     #[arg(long, value_name = "EPS_C", conflicts_with = "tolerance")]
     completeness: Option<f64>,
+
+    /// The finite-size bound: improved-2019 (default; Dupuis-Fawzi alpha
+    /// form) or first-2016 (the first entropy accumulation theorem, for
+    /// re-checking older certificates).
+    #[arg(long, value_name = "BOUND", value_parser = ["improved-2019", "first-2016"])]
+    bound: Option<String>,
+
+    /// Which raw string to certify: pairs (a1 b1 .. aN bN, default) or alice
+    /// (a1 .. aN: Alice's bits only; N_test bits fewer).
+    #[arg(long, value_name = "KEEP", value_parser = ["pairs", "alice"])]
+    keep: Option<String>,
+
+    /// Acceptance test: wins (count of won test rounds) or score
+    /// (W - nu N_test, with --score-offset nu). --plan compares both.
+    #[arg(long, value_name = "TEST", value_parser = ["wins", "score"])]
+    test: Option<String>,
+
+    /// The score offset nu in [0, 1] of --test score.
+    #[arg(long, value_name = "NU")]
+    score_offset: Option<f64>,
+
+    /// How the threshold follows from --completeness: binomial or chernoff
+    /// (wins), chernoff or bernstein (score).
+    #[arg(long, value_name = "TAIL", value_parser = ["binomial", "chernoff", "bernstein", "hoeffding"])]
+    tail: Option<String>,
 
     /// Smoothing parameter eps_s.
     #[arg(long, value_name = "EPS_S")]
@@ -136,79 +167,56 @@ pub struct CertifyArgs {
 /// Protocol parameters with their origin.
 #[derive(Debug, Default, Clone)]
 struct Resolved {
-    rounds: Option<u64>,
-    gamma: Option<f64>,
-    w_exp: Option<f64>,
-    delta: Option<f64>,
-    eps_s: Option<f64>,
-    eps_ea: Option<f64>,
-    eps_est: Option<f64>,
+    d: Declared,
     from_file: Option<(PathBuf, String)>,
 }
 
-/// `(key, value, line number)` entries of a `key = value` file.
-type KeyValues = Vec<(String, String, usize)>;
+impl std::ops::Deref for Resolved {
+    type Target = Declared;
+    fn deref(&self) -> &Declared {
+        &self.d
+    }
+}
 
-/// Keys of the parameters file.
-const PARAM_KEYS: [&str; 7] = [
-    "rounds",
-    "test-probability",
-    "expected-win",
-    "tolerance",
-    "smoothing",
-    "acceptance",
-    "estimation-error",
-];
-
-/// Keys of the counts file (besides the parameters it may carry).
-const COUNT_KEYS: [&str; 2] = ["test-rounds", "wins"];
-
-/// Reads `key = value` lines ('#' comments, blank lines ignored); returns
-/// them with the BLAKE3 hex digest of the file.
-fn read_key_values(path: &Path, allowed: &[&str]) -> Result<(KeyValues, String)> {
-    // A parameters or counts file is a few lines: refused above 1 MiB
-    // before it is read (issue 15 item 9); parsed by `sluice::files::keyvalue`.
-    let bytes = sluice::files::keyvalue::read_limited(path, 1 << 20, "parameters or counts file")
-        .with_context(|| format!("cannot read {}", path.display()))?;
+/// Reads a `key = value` file through the library parser; returns the
+/// lines with the BLAKE3 hex digest of the file.
+fn read_key_values(path: &Path, allowed: &[&str]) -> Result<(Vec<KeyValue>, String)> {
+    // A few lines: refused above the limit before it is read.
+    let bytes = sluice::files::keyvalue::read_limited(
+        path,
+        params::MAX_FILE_BYTES,
+        "parameters or counts file",
+    )
+    .with_context(|| format!("cannot read {}", path.display()))?;
     let digest = blake3::hash(&bytes).to_hex().to_string();
-    let out = sluice::files::keyvalue::parse(&bytes, allowed)
+    let kv = params::read_key_values(&bytes[..], allowed)
         .map_err(|e| anyhow!("{}: {e}", path.display()))?;
-    Ok((out, digest))
+    Ok((kv, digest))
 }
 
 /// A count written as an integer or as an exact power form such as 1e8.
 fn parse_count(s: &str) -> std::result::Result<u64, String> {
-    let t = s.replace('_', "");
-    if let Ok(v) = t.parse::<u64>() {
-        return Ok(v);
-    }
-    match t.parse::<f64>() {
-        Ok(f) if f.fract() == 0.0 && (0.0..1.8e19).contains(&f) => Ok(f as u64),
-        _ => Err(format!("{s:?} is not a whole number of rounds")),
-    }
-}
-
-fn parse_num<T: std::str::FromStr>(path: &Path, line: usize, key: &str, v: &str) -> Result<T> {
-    // Accept integers written as 1e8 too.
-    if let Some(x) = sluice::files::keyvalue::parse_number(v) {
-        return Ok(x);
-    }
-    bail!(
-        "{}: line {line}: {key} = {v:?} is not a number of the right kind",
-        path.display()
-    )
+    params::parse_count(s).ok_or_else(|| format!("{s:?} is not a whole number of rounds"))
 }
 
 impl CertifyArgs {
     fn resolve(&self) -> Result<Resolved> {
         let mut r = Resolved {
-            rounds: self.rounds,
-            gamma: self.test_probability,
-            w_exp: self.expected_win,
-            delta: self.tolerance,
-            eps_s: self.smoothing,
-            eps_ea: self.acceptance,
-            eps_est: self.estimation_error,
+            d: Declared {
+                rounds: self.rounds,
+                gamma: self.test_probability,
+                w_exp: self.expected_win,
+                delta: self.tolerance,
+                eps_s: self.smoothing,
+                eps_ea: self.acceptance,
+                eps_est: self.estimation_error,
+                eps_c: self.completeness,
+                bound: self.bound.clone(),
+                keep: self.keep.clone(),
+                test: self.test.clone(),
+                nu: self.score_offset,
+                tail: self.tail.clone(),
+            },
             from_file: None,
         };
         // The parameters file, or else the counts file, which may carry
@@ -220,60 +228,9 @@ impl CertifyArgs {
                 allowed.extend_from_slice(&COUNT_KEYS);
             }
             let (kv, digest) = read_key_values(path, &allowed)?;
-            let mut any = false;
-            for (k, v, line) in kv {
-                if COUNT_KEYS.contains(&k.as_str()) {
-                    continue;
-                }
-                if self.params.is_none() && k == "rounds" {
-                    // In a counts file, rounds is the count; it is checked
-                    // against --rounds (or taken as N_rounds) later.
-                    if r.rounds.is_none() {
-                        r.rounds = Some(parse_num(path, line, &k, &v)?);
-                    }
-                    continue;
-                }
-                any = true;
-                let clash = |given: bool| -> Result<()> {
-                    if given {
-                        bail!(
-                            "{k} is given both in {} (line {line}) and as --{k}; give each parameter once",
-                            path.display()
-                        );
-                    }
-                    Ok(())
-                };
-                match k.as_str() {
-                    "rounds" => {
-                        clash(r.rounds.is_some())?;
-                        r.rounds = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    "test-probability" => {
-                        clash(r.gamma.is_some())?;
-                        r.gamma = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    "expected-win" => {
-                        clash(r.w_exp.is_some())?;
-                        r.w_exp = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    "tolerance" => {
-                        clash(r.delta.is_some())?;
-                        r.delta = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    "smoothing" => {
-                        clash(r.eps_s.is_some())?;
-                        r.eps_s = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    "acceptance" => {
-                        clash(r.eps_ea.is_some())?;
-                        r.eps_ea = Some(parse_num(path, line, &k, &v)?)
-                    }
-                    _ => {
-                        clash(r.eps_est.is_some())?;
-                        r.eps_est = Some(parse_num(path, line, &k, &v)?)
-                    }
-                }
-            }
+            let any =
+                r.d.merge(&kv, self.params.is_none())
+                    .map_err(|e| anyhow!("{}: {e}", path.display()))?;
             if self.params.is_some() || any {
                 r.from_file = Some((path.clone(), digest));
             }
@@ -330,6 +287,452 @@ fn eat_params(r: &Resolved, delta: f64) -> Result<EatParams> {
     })
 }
 
+/// The bound chosen and everything it needs, fixed before the run.
+#[derive(Debug, Clone, Copy)]
+enum Bound {
+    /// First-order bound of spec 3 (tolerance form).
+    First(EatParams),
+    /// Improved bound with its acceptance test.
+    Improved(ImprovedParams),
+}
+
+/// The protocol of a run: the bound, the string kept, and the level of the
+/// record checks.
+#[derive(Debug, Clone, Copy)]
+struct Protocol {
+    bound: Bound,
+    keep: Keep,
+    w_exp: f64,
+}
+
+impl Protocol {
+    fn eps_s(&self) -> f64 {
+        match &self.bound {
+            Bound::First(p) => p.eps_s,
+            Bound::Improved(p) => p.eps_s,
+        }
+    }
+    fn eps_ea(&self) -> f64 {
+        match &self.bound {
+            Bound::First(p) => p.eps_ea,
+            Bound::Improved(p) => p.eps_ea,
+        }
+    }
+    fn name(&self) -> &'static str {
+        match self.bound {
+            Bound::First(_) => BOUND_FIRST,
+            Bound::Improved(_) => BOUND_IMPROVED,
+        }
+    }
+    /// The acceptance test as a record.
+    fn acceptance(&self) -> Acceptance {
+        match &self.bound {
+            Bound::First(p) => Acceptance {
+                kind: TestKind::Wins,
+                nu: 0.0,
+                threshold: p.threshold_wins(),
+                tail: TailMethod::Hoeffding,
+                completeness: completeness(p.n_rounds, p.gamma, p.delta),
+            },
+            Bound::Improved(p) => p.acceptance,
+        }
+    }
+}
+
+fn parse_tail(t: &str) -> Result<TailMethod> {
+    TailMethod::parse(t)
+        .ok_or_else(|| anyhow!("--tail {t:?}: use binomial, chernoff, bernstein or hoeffding"))
+}
+
+/// Resolves the protocol; `plan` allows the test (and nu) to be left open
+/// (`Ok(None)` for the improved bound then: the planner compares tests).
+fn protocol(r: &Resolved, plan: bool) -> Result<Option<Protocol>> {
+    let n = need(r.rounds, "rounds")?;
+    let gamma = need(r.gamma, "test-probability")?;
+    let w_exp = need(r.w_exp, "expected-win")?;
+    let keep = match r.keep.as_deref() {
+        None | Some("pairs") => Keep::Pairs,
+        Some(_) => Keep::Alice,
+    };
+    let bound = r.bound.as_deref().unwrap_or(BOUND_IMPROVED);
+    if bound == BOUND_FIRST {
+        if r.test.as_deref() == Some("score") || r.nu.is_some() {
+            bail!("--test score: the first-2016 bound takes the win-count test only (use --bound improved-2019)");
+        }
+        if r.tail.as_deref().is_some_and(|t| t != "hoeffding") {
+            bail!("--tail: the first-2016 bound derives its tolerance with hoeffding (spec 3.5)");
+        }
+        let delta = match (r.delta, r.eps_c) {
+            (Some(d), _) => d,
+            (None, Some(eps_c)) => {
+                if !(eps_c > 0.0 && eps_c < 1.0) {
+                    bail!("--completeness {eps_c}: must lie strictly between 0 and 1");
+                }
+                delta_for_completeness(n, gamma, eps_c)
+            }
+            (None, None) => {
+                bail!("--tolerance or --completeness is missing (fixed before the run)")
+            }
+        };
+        let p = eat_params(r, delta)?;
+        p.validate()?;
+        return Ok(Some(Protocol {
+            bound: Bound::First(p),
+            keep,
+            w_exp,
+        }));
+    }
+    let eps_s = need(r.eps_s, "smoothing")?;
+    let eps_ea = need(r.eps_ea, "acceptance")?;
+    let acceptance = if let Some(delta) = r.delta {
+        if r.test.as_deref() == Some("score") {
+            bail!("--tolerance gives a win-count threshold; for --test score give --completeness");
+        }
+        Acceptance {
+            kind: TestKind::Wins,
+            nu: 0.0,
+            threshold: gamma * n as f64 * (w_exp - delta),
+            tail: TailMethod::Hoeffding,
+            completeness: completeness(n, gamma, delta),
+        }
+    } else {
+        let eps_c = need(r.eps_c, "completeness")?;
+        let kind = match r.test.as_deref() {
+            Some("wins") => TestKind::Wins,
+            Some(_) => TestKind::Score,
+            None if plan => return Ok(None),
+            None => bail!("--test is missing: the acceptance test (wins or score) is fixed before the run; certify --plan compares them"),
+        };
+        let nu = match kind {
+            TestKind::Wins => 0.0,
+            TestKind::Score => match r.nu {
+                Some(nu) => nu,
+                None if plan => return Ok(None),
+                None => bail!("--score-offset is missing: --test score needs the nu fixed before the run (certify --plan chooses one)"),
+            },
+        };
+        let tail = match (r.tail.as_deref(), kind) {
+            (Some(t), _) => parse_tail(t)?,
+            (None, TestKind::Wins) => TailMethod::Binomial,
+            (None, TestKind::Score) => TailMethod::Chernoff,
+        };
+        Acceptance::for_completeness(n, gamma, w_exp, eps_c, kind, nu, tail)?
+    };
+    let p = ImprovedParams {
+        n_rounds: n,
+        gamma,
+        eps_s,
+        eps_ea,
+        acceptance,
+    };
+    p.validate()?;
+    Ok(Some(Protocol {
+        bound: Bound::Improved(p),
+        keep,
+        w_exp,
+    }))
+}
+
+/// Bits charged besides the margin when planning: W published (at most
+/// `ceil(log2(N + 1))`) and, keeping Alice's bits only, the largest N_test
+/// the record checks let pass.
+fn planning_charge(n: u64, gamma: f64, level: f64, keep: Keep) -> f64 {
+    let w = log2_values_ceil(n) as f64;
+    match keep {
+        Keep::Pairs => w,
+        Keep::Alice => w + test_rounds_range(n, gamma, level).1 as f64,
+    }
+}
+
+#[derive(Serialize)]
+struct ImprovedPlanRow {
+    test: &'static str,
+    tail: &'static str,
+    score_offset: f64,
+    threshold: f64,
+    w_acc: f64,
+    completeness_error: f64,
+    bits: u64,
+    bits_per_round: f64,
+    terms: Option<ImprovedTerms>,
+}
+
+#[derive(Serialize)]
+struct ImprovedPlanReport {
+    kind: &'static str,
+    label: &'static str,
+    bound: &'static str,
+    keep: Keep,
+    rounds: u64,
+    test_probability: f64,
+    expected_win: f64,
+    smoothing: f64,
+    acceptance: f64,
+    rows: Vec<ImprovedPlanRow>,
+    chosen: usize,
+    asymptotic_bits: f64,
+    input_randomness_bits: f64,
+    net_gain_bits: f64,
+    record_check_level: f64,
+    test_rounds_range: [u64; 2],
+    parameters_file: String,
+    plot: Option<String>,
+    cautions: Vec<&'static str>,
+}
+
+fn run_plan_improved(
+    args: &CertifyArgs,
+    r: &Resolved,
+    fixed: Option<Protocol>,
+) -> Result<ExitCode> {
+    let n = need(r.rounds, "rounds")?;
+    let gamma = need(r.gamma, "test-probability")?;
+    let w_exp = need(r.w_exp, "expected-win")?;
+    let eps_s = need(r.eps_s, "smoothing")?;
+    let eps_ea = need(r.eps_ea, "acceptance")?;
+    let keep = match r.keep.as_deref() {
+        Some("alice") => Keep::Alice,
+        _ => Keep::Pairs,
+    };
+    let level = eps_ea;
+    let charge = planning_charge(n, gamma, level, keep);
+    let candidates: Vec<PlannedTest> = match fixed {
+        Some(Protocol {
+            bound: Bound::Improved(p),
+            ..
+        }) => {
+            let terms = improved_optimise(&p);
+            vec![PlannedTest {
+                acceptance: p.acceptance,
+                terms,
+                bits: terms.map_or(0, |t| figure(t.bound_bits, charge)),
+            }]
+        }
+        _ => {
+            let eps_c = need(r.eps_c, "completeness")?;
+            let all = plan_tests(n, gamma, w_exp, eps_c, eps_s, eps_ea, &|_| charge)?;
+            let want_kind = match r.test.as_deref() {
+                Some("wins") => Some(TestKind::Wins),
+                Some("score") => Some(TestKind::Score),
+                _ => None,
+            };
+            all.into_iter()
+                .filter(|t| want_kind.is_none_or(|k| t.acceptance.kind == k))
+                .filter(|t| {
+                    r.tail
+                        .as_deref()
+                        .is_none_or(|x| x == t.acceptance.tail.name())
+                })
+                .collect()
+        }
+    };
+    if candidates.is_empty() {
+        bail!("--tail: no acceptance test of this kind takes that tail (wins: binomial, chernoff; score: chernoff, bernstein)");
+    }
+    let chosen = candidates
+        .iter()
+        .enumerate()
+        .max_by(|a, b| a.1.bits.cmp(&b.1.bits).then(b.0.cmp(&a.0)))
+        .map(|(i, _)| i)
+        .unwrap_or(0);
+    let (lo, hi) = test_rounds_range(n, gamma, level);
+    let rows: Vec<ImprovedPlanRow> = candidates
+        .iter()
+        .map(|t| ImprovedPlanRow {
+            test: match t.acceptance.kind {
+                TestKind::Wins => "wins",
+                TestKind::Score => "score",
+            },
+            tail: t.acceptance.tail.name(),
+            score_offset: t.acceptance.nu,
+            threshold: t.acceptance.threshold,
+            w_acc: t.acceptance.w_acc(n, gamma),
+            completeness_error: t.acceptance.completeness + level,
+            bits: t.bits,
+            bits_per_round: t.bits as f64 / n as f64,
+            terms: t.terms,
+        })
+        .collect();
+    let best = &candidates[chosen];
+    let input_bits = input_randomness_bits(n, gamma);
+    let mut params_file = format!(
+        "# fixed before the run (certify --plan)\nrounds = {n}\ntest-probability = {gamma}\nexpected-win = {w_exp}\nsmoothing = {eps_s:e}\nacceptance = {eps_ea:e}\nbound = {BOUND_IMPROVED}\nkeep = {}\n",
+        keep.name()
+    );
+    match best.acceptance.tail {
+        TailMethod::Hoeffding => {
+            params_file.push_str(&format!(
+                "tolerance = {}\n",
+                w_exp - best.acceptance.threshold / (gamma * n as f64)
+            ));
+        }
+        t => {
+            params_file.push_str(&format!(
+                "completeness = {:e}\ntest = {}\ntail = {}\n",
+                need(r.eps_c, "completeness")?,
+                rows[chosen].test,
+                t.name()
+            ));
+            if best.acceptance.kind == TestKind::Score {
+                params_file.push_str(&format!("score-offset = {}\n", best.acceptance.nu));
+            }
+        }
+    }
+    let mut plot = None;
+    if let Some(path) = &args.plot {
+        let a = best.acceptance;
+        let eps_c = r.eps_c;
+        let caption = format!(
+            "improved-2019 bound, {} test: certified bits per round if the run passes (W published); w_exp = {w_exp}, eps_s = {eps_s:e}, eps_EA = {eps_ea:e}",
+            rows[chosen].test
+        );
+        super::common::check_output(
+            path,
+            sluice::files::Kind::Plot,
+            &[(args.params.as_deref(), "parameters file")],
+            args.force,
+        )?;
+        let rate = |n: u64, g: f64| {
+            let acc = match eps_c {
+                Some(e) => Acceptance::for_completeness(n, g, w_exp, e, a.kind, a.nu, a.tail),
+                None => Ok(Acceptance {
+                    threshold: a.threshold / (gamma * r.rounds.unwrap_or(1) as f64) * g * n as f64,
+                    ..a
+                }),
+            };
+            let Ok(acc) = acc else { return 0.0 };
+            let p = ImprovedParams {
+                n_rounds: n,
+                gamma: g,
+                eps_s,
+                eps_ea,
+                acceptance: acc,
+            };
+            improved_optimise(&p).map_or(0.0, |t| {
+                figure(t.bound_bits, planning_charge(n, g, level, keep)) as f64 / n as f64
+            })
+        };
+        super::common::write_svg(path, args.force, |svg| {
+            super::plot::certify_rates(svg, gamma, &caption, &rate)
+        })?;
+        plot = Some(path.display().to_string());
+    }
+    let report = ImprovedPlanReport {
+        kind: "plan",
+        label: "planning figure: assumes the run passes the test; not a certificate",
+        bound: BOUND_IMPROVED,
+        keep,
+        rounds: n,
+        test_probability: gamma,
+        expected_win: w_exp,
+        smoothing: eps_s,
+        acceptance: eps_ea,
+        chosen,
+        asymptotic_bits: n as f64 * asymptotic_rate(w_exp),
+        input_randomness_bits: input_bits,
+        net_gain_bits: best.bits as f64 - input_bits,
+        record_check_level: level,
+        test_rounds_range: [lo, hi],
+        parameters_file: params_file,
+        plot,
+        rows,
+        cautions: cautions(Mode::EntropyAccumulation).to_vec(),
+    };
+    if args.json {
+        print_json(&report)?;
+        return Ok(ExitCode::SUCCESS);
+    }
+    let mut o = std::io::stdout().lock();
+    writeln!(
+        o,
+        "plan (planning figure: assumes the run passes; not a certificate)"
+    )?;
+    writeln!(
+        o,
+        "  bound improved-2019 (Dupuis-Fawzi 2019, alpha form); N_rounds {n}, gamma {gamma}, w_exp {w_exp}, eps_s {eps_s:e}, eps_EA {eps_ea:e}; string {} ({} bits)",
+        match keep {
+            Keep::Pairs => PAIR_LAYOUT,
+            Keep::Alice => ALICE_LAYOUT,
+        },
+        keep.string_bits(n)
+    )?;
+    writeln!(
+        o,
+        "\n    {:<6} {:<10} {:>6} {:>18} {:>10} {:>12} {:>16} {:>10}",
+        "test", "tail", "nu", "threshold", "w_acc", "eps_c", "bits", "per round"
+    )?;
+    for (i, row) in report.rows.iter().enumerate() {
+        writeln!(
+            o,
+            "  {} {:<6} {:<10} {:>6.4} {:>18.2} {:>10.6} {:>12.3e} {:>16} {:>10.6}",
+            if i == chosen { "*" } else { " " },
+            row.test,
+            row.tail,
+            row.score_offset,
+            row.threshold,
+            row.w_acc,
+            row.completeness_error,
+            row.bits,
+            row.bits_per_round
+        )?;
+    }
+    let row = &report.rows[chosen];
+    writeln!(o)?;
+    writeln!(
+        o,
+        "  certified smooth min-entropy (best test, marked *): {} bits, with W published and the 1-bit margin{}",
+        row.bits,
+        if keep == Keep::Alice {
+            format!("; keeping Alice's bits costs N_test bits (at most {hi} pass the record checks)")
+        } else {
+            String::new()
+        }
+    )?;
+    if let Some(t) = &row.terms {
+        writeln!(
+            o,
+            "  B = {:.2} = N h {:.2} - second order {:.2} - eps term {:.2} - third order {:.2}; w_t = {:.9}, alpha = 1 + {:.6e}",
+            t.bound_bits,
+            t.first_order_bits,
+            t.second_order_bits,
+            t.eps_term_bits,
+            t.third_order_bits,
+            t.w_t,
+            t.alpha - 1.0
+        )?;
+    } else {
+        writeln!(
+            o,
+            "  0 bits: the acceptance threshold does not exceed the classical win probability 3/4"
+        )?;
+    }
+    writeln!(
+        o,
+        "  asymptotic N r(w_exp) = {:.6e} bits; input randomness used N (h(gamma) + 2 gamma) = {:.6e} bits; net gain {:.6e} bits",
+        report.asymptotic_bits, input_bits, report.net_gain_bits
+    )?;
+    if report.net_gain_bits <= 0.0 {
+        writeln!(
+            o,
+            "  no net gain: the run consumes more trusted randomness than it certifies"
+        )?;
+    }
+    writeln!(
+        o,
+        "  completeness: honest devices abort with probability at most {:.3e} (test) + {level:e} (record checks: N_test in {lo}..={hi}, uniform test inputs)",
+        best.acceptance.completeness
+    )?;
+    writeln!(o, "\nparameters to fix before the run (a --params file):")?;
+    for l in report.parameters_file.lines().skip(1) {
+        writeln!(o, "  {l}")?;
+    }
+    if let Some(pl) = &report.plot {
+        writeln!(o, "  plot written to {pl}")?;
+    }
+    print_cautions(&mut o, Mode::EntropyAccumulation)?;
+    Ok(ExitCode::SUCCESS)
+}
+
 /// Runs the command.
 pub fn run(args: CertifyArgs) -> Result<ExitCode> {
     if args.plan {
@@ -337,9 +740,6 @@ pub fn run(args: CertifyArgs) -> Result<ExitCode> {
     }
     if args.record.is_none() && args.counts.is_none() {
         bail!("give a round file, --counts FILE, or --plan");
-    }
-    if args.completeness.is_some() {
-        bail!("--completeness is for --plan; a run is certified with the tolerance fixed before it (--tolerance)");
     }
     run_certify(&args)
 }
@@ -363,9 +763,16 @@ fn run_plan(args: &CertifyArgs) -> Result<ExitCode> {
     if args.mode() == Mode::IidEstimate {
         bail!("--plan computes the entropy-accumulation figure only (the i.i.d. estimate needs the observed wins)");
     }
+    let prot = protocol(&r, true)?;
+    if r.bound.as_deref() != Some(BOUND_FIRST) {
+        return run_plan_improved(args, &r, prot);
+    }
+    if r.keep.as_deref() == Some("alice") {
+        bail!("--keep alice: --plan computes the Alice-only figure with --bound improved-2019 (the first-2016 plan covers the pair string of spec 3.8)");
+    }
     let n = need(r.rounds, "rounds")?;
     let gamma = need(r.gamma, "test-probability")?;
-    let delta = match (r.delta, args.completeness) {
+    let delta = match (r.delta, r.eps_c) {
         (Some(d), _) => d,
         (None, Some(eps_c)) => {
             if !(eps_c > 0.0 && eps_c < 1.0) {
@@ -385,9 +792,7 @@ fn run_plan(args: &CertifyArgs) -> Result<ExitCode> {
             &[(args.params.as_deref(), "parameters file")],
             args.force,
         )?;
-        super::common::write_svg(path, args.force, |svg| {
-            draw_plot(svg, &p, args.completeness)
-        })?;
+        super::common::write_svg(path, args.force, |svg| draw_plot(svg, &p, r.eps_c))?;
         plot = Some(path.display().to_string());
     }
     let report = PlanReport {
@@ -503,93 +908,16 @@ fn plan_rate(p: &EatParams, n: u64, gamma: f64, eps_c: Option<f64>) -> f64 {
         .unwrap_or(0.0)
 }
 
-fn neighbours(gamma: f64) -> (f64, f64) {
-    if gamma * 2.0 <= 1.0 {
-        (gamma / 2.0, gamma * 2.0)
-    } else if gamma < 1.0 {
-        (gamma / 2.0, 1.0)
-    } else {
-        (gamma / 4.0, gamma / 2.0)
-    }
-}
-
 fn draw_plot(svg: &mut String, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
-    use plotters::prelude::*;
-    let (lo, hi) = neighbours(p.gamma);
-    let mut gammas = [lo, p.gamma, hi];
-    gammas.sort_by(|a, b| a.partial_cmp(b).unwrap());
-    let ns: Vec<f64> = (0..=140)
-        .map(|i| 10f64.powf(5.0 + i as f64 * 0.05))
-        .collect();
-    let series: Vec<(f64, Vec<(f64, f64)>)> = gammas
-        .iter()
-        .map(|&g| {
-            (
-                g,
-                ns.iter()
-                    .map(|&n| (n, plan_rate(p, n.round() as u64, g, eps_c)))
-                    .collect(),
-            )
-        })
-        .collect();
-    let ymax = series
-        .iter()
-        .flat_map(|(_, s)| s.iter().map(|&(_, y)| y))
-        .fold(0.0f64, f64::max);
-    let ymax = (ymax * 1.1).clamp(0.05, 1.0);
-    {
-        let root = SVGBackend::with_string(svg, (960, 600)).into_drawing_area();
-        root.fill(&WHITE).map_err(|e| anyhow!("plot: {e}"))?;
-        let delta_text = match eps_c {
-            Some(e) => format!("delta for completeness error {e:e}"),
-            None => format!("delta = {}", p.delta),
-        };
-        let mut chart = ChartBuilder::on(&root)
-            .caption(
-                format!(
-                    "certified bits per round if the run passes (W published); w_exp = {}, {delta_text}, eps_s = {:e}, eps_EA = {:e}",
-                    p.w_exp, p.eps_s, p.eps_ea
-                ),
-                ("sans-serif", 16),
-            )
-            .margin(16)
-            .x_label_area_size(48)
-            .y_label_area_size(64)
-            .build_cartesian_2d((1e5f64..1e12f64).log_scale(), 0f64..ymax)
-            .map_err(|e| anyhow!("plot: {e}"))?;
-        chart
-            .configure_mesh()
-            .x_desc("number of rounds N (log scale)")
-            .y_desc("certified bits per round")
-            .x_label_formatter(&|x| format!("1e{}", x.log10().round()))
-            .draw()
-            .map_err(|e| anyhow!("plot: {e}"))?;
-        let colours = [BLUE, RED, RGBColor(0, 140, 0)];
-        for (i, (g, pts)) in series.iter().enumerate() {
-            let c = colours[i % 3];
-            let label = if (*g - p.gamma).abs() < 1e-15 {
-                format!("gamma = {g} (given)")
-            } else {
-                format!("gamma = {g}")
-            };
-            chart
-                .draw_series(LineSeries::new(pts.iter().copied(), c.stroke_width(2)))
-                .map_err(|e| anyhow!("plot: {e}"))?
-                .label(label)
-                .legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 20, y)], c.stroke_width(2))
-                });
-        }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperLeft)
-            .background_style(WHITE.mix(0.8))
-            .border_style(BLACK)
-            .draw()
-            .map_err(|e| anyhow!("plot: {e}"))?;
-        root.present().map_err(|e| anyhow!("plot: {e}"))?;
-    }
-    Ok(())
+    let delta_text = match eps_c {
+        Some(e) => format!("delta for completeness error {e:e}"),
+        None => format!("delta = {}", p.delta),
+    };
+    let caption = format!(
+        "first-2016 bound: certified bits per round if the run passes (W published); w_exp = {}, {delta_text}, eps_s = {:e}, eps_EA = {:e}",
+        p.w_exp, p.eps_s, p.eps_ea
+    );
+    super::plot::certify_rates(svg, p.gamma, &caption, &|n, g| plan_rate(p, n, g, eps_c))
 }
 
 // ----------------------------------------------------------- certification
@@ -607,23 +935,6 @@ impl<R: Read> Read for Tee<R> {
         self.hasher.borrow_mut().update(&buf[..n]);
         *self.count.borrow_mut() += n as u64;
         Ok(n)
-    }
-}
-
-/// A writer that also feeds a data digest.
-struct DigestWriter<W> {
-    inner: W,
-    digest: DataDigest,
-}
-
-impl<W: Write> Write for DigestWriter<W> {
-    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
-        let n = self.inner.write(buf)?;
-        self.digest.update(&buf[..n]);
-        Ok(n)
-    }
-    fn flush(&mut self) -> std::io::Result<()> {
-        self.inner.flush()
     }
 }
 
@@ -664,6 +975,7 @@ fn read_record(
     n_expected: u64,
     gamma: f64,
     raw_out: Option<(&Path, sluice::files::Replace)>,
+    keep: Keep,
 ) -> Result<RecordRead> {
     let hasher = Rc::new(RefCell::new(blake3::Hasher::new()));
     let count = Rc::new(RefCell::new(0u64));
@@ -693,11 +1005,6 @@ fn read_record(
     } else {
         Box::new(raw_in)
     };
-    let mut reader = RecordReader::new(text);
-    let mut tally = Tally::new();
-    let mut pairs = Bits::new();
-
-    let digest = DataDigest::new(2 * n_expected);
     let sink = match raw_out {
         Some((dest, replace)) => RawSink::File(
             sluice::files::AtomicFile::create(dest, sluice::files::Kind::RawOutput, replace)
@@ -705,52 +1012,27 @@ fn read_record(
         ),
         None => RawSink::Discard,
     };
-    let mut writer = BitWriter::new(
-        DigestWriter {
-            inner: sink,
-            digest,
-        },
-        Format::Packed,
-        BitOrder::Msb,
-    );
-
     let pb = progress(size.unwrap_or(0), "reading rounds");
-    let result = (|| -> Result<()> {
-        loop {
-            let n = reader
-                .read_rounds(CHUNK_ROUNDS, &mut tally, Some(&mut pairs))
-                .map_err(|e| anyhow!("{}: {e}", path.display()))?;
-            if n == 0 {
-                break;
-            }
-            if tally.rounds() <= n_expected {
-                writer
-                    .write_bits(&pairs)
-                    .context("cannot write the raw output")?;
-            }
-            pb.set_position(*count.borrow());
-        }
-        Ok(())
-    })();
+    // One pass: the library parses, tallies, writes and digests the kept
+    // string; this layer only supplies the streams.
+    let result = read_rounds(text, n_expected, keep, sink, || {
+        pb.set_position(*count.borrow())
+    });
     pb.finish_and_clear();
     // On an error the writer is dropped: its temporary file goes with it.
-    result?;
-    let rounds = tally.rounds();
+    let read = result.map_err(|e| anyhow!("{}: {e}", path.display()))?;
+    let rounds = read.rounds;
     if rounds != n_expected {
         bail!(
             "{}: the record holds {rounds} rounds, but N_rounds = {n_expected} was fixed before the run",
             path.display()
         );
     }
-    let dw = writer.finish().context("cannot write the raw output")?;
-    let DigestWriter { mut inner, digest } = dw;
-    inner.flush().context("cannot write the raw output")?;
-    let raw_file = match inner {
+    let raw_file = match read.sink {
         RawSink::File(f) => Some(f),
         RawSink::Discard => None,
     };
-    let raw_digest = digest.finish_hex();
-    let summary = tally.summary(gamma)?;
+    let summary = read.tally.summary(gamma)?;
     let file_digest = hasher.borrow().finalize().to_hex().to_string();
     let file_bytes = *count.borrow();
     Ok(RecordRead {
@@ -762,30 +1044,18 @@ fn read_record(
             compressed,
             rounds,
             test_rounds: 0,
+            wins: None,
+            pair_counts: None,
         },
-        raw_digest: Some(raw_digest),
+        raw_digest: Some(read.raw_digest),
         raw_file,
     })
 }
 
 fn read_counts(path: &Path, gamma: f64) -> Result<Summary> {
-    let allowed = [&PARAM_KEYS[..], &COUNT_KEYS[..]].concat();
-    let (kv, _) = read_key_values(path, &allowed)?;
-    let mut vals = [None; 3];
-    for (k, v, line) in kv {
-        if let Some(i) = ["rounds", "test-rounds", "wins"]
-            .iter()
-            .position(|&x| x == k)
-        {
-            vals[i] = Some(parse_num::<u64>(path, line, &k, &v)?);
-        }
-    }
-    let get = |i: usize, name: &str| {
-        vals[i].ok_or_else(|| anyhow!("{}: the line {name} = ... is missing", path.display()))
-    };
-    let mut s = Summary::from_counts(get(0, "rounds")?, get(1, "test-rounds")?, get(2, "wins")?);
-    s.check_counts()
-        .map_err(|e| anyhow!("{}: {e}", path.display()))?;
+    let bytes = sluice::files::keyvalue::read_limited(path, params::MAX_FILE_BYTES, "counts file")
+        .with_context(|| format!("cannot read {}", path.display()))?;
+    let mut s = params::read_counts(&bytes[..]).map_err(|e| anyhow!("{}: {e}", path.display()))?;
     s.add_warnings(gamma);
     Ok(s)
 }
@@ -819,6 +1089,9 @@ fn digest_raw_file(path: &Path, nbits: u64) -> Result<String> {
 struct CertifyReport<'a> {
     kind: &'static str,
     accepted: bool,
+    bound: Option<&'a BoundRecord>,
+    string_bits: u64,
+    layout: &'static str,
     mode: Mode,
     setup: Setup,
     labels: &'a [String],
@@ -852,19 +1125,24 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
         bail!("--rounds 0: N_rounds must be at least 1");
     }
     // Validate the parameters before reading a large record.
-    let eat_p = match mode {
-        Mode::EntropyAccumulation => {
-            let p = eat_params(&r, need(r.delta, "tolerance")?)?;
-            p.validate()?;
-            Some(p)
-        }
+    let prot = match mode {
+        Mode::EntropyAccumulation => Some(protocol(&r, false)?.expect("certify fixes the test")),
         Mode::IidEstimate => {
             let e = need(r.eps_est, "estimation-error")?;
             if !(e > 0.0 && e < 1.0) {
                 bail!("--estimation-error {e}: must lie strictly between 0 and 1");
             }
+            if r.keep.as_deref() == Some("alice") {
+                bail!("--keep alice applies to entropy accumulation; the i.i.d. estimate certifies the pair string");
+            }
             None
         }
+    };
+    let keep = prot.map_or(Keep::Pairs, |p| p.keep);
+    // The level of the record checks: the certificate's own error level.
+    let level = match &prot {
+        Some(p) => p.eps_ea(),
+        None => r.eps_est.unwrap_or(1e-6),
     };
 
     // Outputs are checked before the record is read: never an input, never
@@ -894,6 +1172,7 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
                 n,
                 gamma,
                 args.raw_out.as_deref().map(|p| (p, replace)),
+                keep,
             )?;
             (rr.summary, rr.info, rr.raw_digest, rr.raw_file)
         }
@@ -910,7 +1189,7 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
                 bail!("--public: with --counts only the win count is known, so only \"wins\" (or none) can be published");
             }
             let d = match &args.raw_in {
-                Some(raw) => Some(digest_raw_file(raw, 2 * n)?),
+                Some(raw) => Some(digest_raw_file(raw, keep.string_bits(n))?),
                 None => None,
             };
             let info = RecordInfo {
@@ -920,45 +1199,160 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
                 compressed: false,
                 rounds: s.n_rounds,
                 test_rounds: s.n_test,
+                wins: None,
+                pair_counts: None,
             };
             (s, info, d, None)
         }
         (None, None) => unreachable!(),
     };
     info.test_rounds = summary.n_test;
+    info.wins = Some(summary.wins);
+    info.pair_counts = summary.has_pair_counts.then_some(summary.pair_counts);
+    // On any error below the raw output's writer is dropped with nothing
+    // renamed into place.
+    // The record must be one the protocol could have produced (issue 14,
+    // items 1 and 2): refuse, and write nothing, otherwise.
+    let range = match summary.check_protocol(gamma, level) {
+        Ok(range) => range,
+        Err(e) => {
+            return Err(e.into());
+        }
+    };
 
     // The figure.
+    let d_pub_of = |s: &Summary| sluice::certify::eat::disclosure_charge(&public, s);
+    let mut bound_record = None;
     let (accepted, k, eps_s, eps_cert, eps_cert_source, d_pub, terms) = match mode {
         Mode::EntropyAccumulation => {
-            let p = eat_p.unwrap();
-            // On an error the raw output's writer is dropped with nothing
-            // renamed.
-            let res = eat_certify(&p, &summary, &public)?;
-            let terms = ResultTerms {
-                bound_bits: res.bound_bits,
-                first_order_bits: Some(res.first_order_bits),
-                second_order_bits: Some(res.second_order_bits),
-                tangent_point: (res.w_t > 0.0).then_some(res.w_t),
-                ceiling_k: (res.w_t > 0.0).then_some(res.k),
-                margin_bits: MARGIN_BITS,
-                completeness_error: Some(completeness(p.n_rounds, p.gamma, p.delta)),
-                win_lower_bound: None,
-                zero_reason: res.zero_reason.map(|z| z.text().to_string()),
+            let prot = prot.unwrap();
+            if let Err(e) = sluice::certify::check_win_fraction(summary.wins, summary.n_test) {
+                return Err(e.into());
+            }
+            let acc = prot.acceptance();
+            let keep_charge = match keep {
+                Keep::Pairs => 0,
+                Keep::Alice => summary.n_test,
+            };
+            let d_pub = d_pub_of(&summary);
+            let charges = (d_pub + keep_charge) as f64;
+            let (accepted, bits, t) = match prot.bound {
+                Bound::First(p) => {
+                    let res = match eat_certify(&p, &summary, &public) {
+                        Ok(r) => r,
+                        Err(e) => {
+                            return Err(e.into());
+                        }
+                    };
+                    let bits = if res.accepted && res.w_t > 0.0 {
+                        figure(res.bound_bits, charges)
+                    } else {
+                        0
+                    };
+                    let zero = if bits > 0 {
+                        None
+                    } else if !res.accepted {
+                        Some(ZeroReason::Aborted.text().to_string())
+                    } else {
+                        Some(
+                            res.zero_reason
+                                .unwrap_or(ZeroReason::ChargesExceedBound)
+                                .text()
+                                .to_string(),
+                        )
+                    };
+                    bound_record = Some(BoundRecord {
+                        name: BOUND_FIRST.into(),
+                        keep,
+                        test: acc,
+                        tangent_point: res.w_t,
+                        alpha: None,
+                        ceiling_k: (res.w_t > 0.0).then_some(res.k),
+                        keep_charge_bits: keep_charge,
+                        terms: None,
+                    });
+                    (
+                        res.accepted,
+                        bits,
+                        ResultTerms {
+                            bound_bits: res.bound_bits,
+                            first_order_bits: Some(res.first_order_bits),
+                            second_order_bits: Some(res.second_order_bits),
+                            tangent_point: (res.w_t > 0.0).then_some(res.w_t),
+                            ceiling_k: (res.w_t > 0.0).then_some(res.k),
+                            margin_bits: MARGIN_BITS,
+                            completeness_error: Some(acc.completeness + level),
+                            win_lower_bound: None,
+                            zero_reason: zero,
+                        },
+                    )
+                }
+                Bound::Improved(p) => {
+                    let accepted = acc.accepts(summary.wins, summary.n_test);
+                    let opt = improved_optimise(&p);
+                    let bits = match (&opt, accepted) {
+                        (Some(t), true) => figure(t.bound_bits, charges),
+                        _ => 0,
+                    };
+                    let zero = if bits > 0 {
+                        None
+                    } else if !accepted {
+                        Some(ZeroReason::Aborted.text().to_string())
+                    } else if opt.is_none() {
+                        Some(ZeroReason::ThresholdNotAboveClassical.text().to_string())
+                    } else if opt.is_some_and(|t| t.bound_bits <= 0.0) {
+                        Some(ZeroReason::SecondOrderExceedsFirstOrder.text().to_string())
+                    } else {
+                        Some(ZeroReason::ChargesExceedBound.text().to_string())
+                    };
+                    bound_record = Some(BoundRecord {
+                        name: BOUND_IMPROVED.into(),
+                        keep,
+                        test: acc,
+                        tangent_point: opt.map_or(0.0, |t| t.w_t),
+                        alpha: opt.map(|t| t.alpha),
+                        ceiling_k: None,
+                        keep_charge_bits: keep_charge,
+                        terms: opt,
+                    });
+                    (
+                        accepted,
+                        bits,
+                        ResultTerms {
+                            bound_bits: opt.map_or(0.0, |t| t.bound_bits),
+                            first_order_bits: opt.map(|t| t.first_order_bits),
+                            second_order_bits: opt.map(|t| {
+                                t.second_order_bits + t.eps_term_bits + t.third_order_bits
+                            }),
+                            tangent_point: opt.map(|t| t.w_t),
+                            ceiling_k: None,
+                            margin_bits: MARGIN_BITS,
+                            completeness_error: Some(acc.completeness + level),
+                            win_lower_bound: None,
+                            zero_reason: zero,
+                        },
+                    )
+                }
             };
             (
-                res.accepted,
-                res.bits,
-                p.eps_s,
-                p.eps_ea,
+                accepted,
+                bits,
+                prot.eps_s(),
+                prot.eps_ea(),
                 "eps_EA",
-                res.d_pub,
-                terms,
+                d_pub,
+                t,
             )
         }
         Mode::IidEstimate => {
             let eps_est = r.eps_est.unwrap();
-            let d_pub = sluice::certify::eat::disclosure_charge(&public, &summary);
-            let (bits, w_l) = iid_estimate(n, summary.n_test, summary.wins, eps_est, d_pub)?;
+            let d_pub = d_pub_of(&summary);
+            let (bits, w_l) = match iid_estimate(n, summary.n_test, summary.wins, eps_est, d_pub) {
+                Ok(v) => v,
+                Err(e) => {
+                    return Err(e.into());
+                }
+            };
             let bound = bits + d_pub as f64;
             let k = if bits > 0.0 { bits.floor() as u64 } else { 0 };
             let zero = (k == 0).then(|| {
@@ -989,10 +1383,10 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
         labels.push(IID_LABEL.to_string());
     }
     if args.record.is_none() {
-        labels.push(
-            "computed from counts supplied by the user; the round record itself was not checked"
-                .into(),
-        );
+        labels.push(COUNTS_LABEL.into());
+    }
+    for w in &summary.input_warnings {
+        labels.push(format!("warning: {w}"));
     }
     let public_values = PublicValues {
         wins: public.contains(&PublicStat::Wins).then_some(summary.wins),
@@ -1043,9 +1437,12 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
             labels: labels.clone(),
             accepted,
             string: CertifiedString {
-                length_bits: 2 * n,
+                length_bits: keep.string_bits(n),
                 digest,
-                layout: PAIR_LAYOUT.into(),
+                layout: match keep {
+                    Keep::Pairs => PAIR_LAYOUT.into(),
+                    Keep::Alice => ALICE_LAYOUT.into(),
+                },
             },
             min_entropy_bits: k,
             eps_s,
@@ -1059,10 +1456,13 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
             parameters: Parameters {
                 rounds: n,
                 test_probability: gamma,
-                expected_win: eat_p.map(|p| p.w_exp),
-                tolerance: eat_p.map(|p| p.delta),
-                smoothing: eat_p.map(|p| p.eps_s),
-                acceptance: eat_p.map(|p| p.eps_ea),
+                expected_win: prot.map(|p| p.w_exp),
+                tolerance: prot.and_then(|p| match p.bound {
+                    Bound::First(e) => Some(e.delta),
+                    Bound::Improved(_) => r.delta,
+                }),
+                smoothing: prot.map(|p| p.eps_s()),
+                acceptance: prot.map(|p| p.eps_ea()),
                 estimation_error: r.eps_est.filter(|_| mode == Mode::IidEstimate),
                 source: if r.from_file.is_some() {
                     "file".into()
@@ -1074,9 +1474,17 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
             record: info.clone(),
             result: terms.clone(),
             tool: format!("sluice {}", env!("CARGO_PKG_VERSION")),
+            bound: bound_record.clone(),
+            checks: Some(ChecksRecord {
+                level,
+                test_rounds_range: [range.0, range.1],
+                inputs_checked: summary.has_pair_counts,
+            }),
         };
         cert.validate()
             .map_err(|e| anyhow!("internal error, certificate does not validate: {e}"))?;
+        cert.check_figure()
+            .map_err(|e| anyhow!("internal error, certificate does not recompute: {e}"))?;
         // Owner-only, through the one atomic writer (it holds digests of
         // the raw data).
         let mut text = cert.to_json_string().into_bytes();
@@ -1094,6 +1502,12 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
     let report = CertifyReport {
         kind: "certify",
         accepted,
+        bound: bound_record.as_ref(),
+        string_bits: keep.string_bits(n),
+        layout: match keep {
+            Keep::Pairs => PAIR_LAYOUT,
+            Keep::Alice => ALICE_LAYOUT,
+        },
         mode,
         setup,
         labels: &labels,
@@ -1117,7 +1531,7 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
     } else {
         print_text(
             &report,
-            eat_p.as_ref(),
+            prot.as_ref(),
             &summary,
             eps_s,
             eps_cert,
@@ -1133,7 +1547,7 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
 
 fn print_text(
     rep: &CertifyReport<'_>,
-    p: Option<&EatParams>,
+    p: Option<&Protocol>,
     s: &Summary,
     eps_s: f64,
     eps_cert: f64,
@@ -1160,26 +1574,41 @@ fn print_text(
         None => write!(o, "test: win count kept secret")?,
     }
     if let Some(p) = p {
+        let a = p.acceptance();
+        let verdict = if rep.accepted {
+            "ACCEPT"
+        } else {
+            "ABORT: the protocol outputs nothing"
+        };
+        match a.kind {
+            TestKind::Wins => writeln!(o, "; pass needs W >= {:.2} -> {verdict}", a.threshold)?,
+            TestKind::Score => writeln!(
+                o,
+                "; pass needs the score W - {} N_test >= {:.2} -> {verdict}",
+                a.nu, a.threshold
+            )?,
+        }
         writeln!(
             o,
-            "; pass needs at least {:.0} (gamma N (w_exp - delta) = {:.2}) -> {}",
-            p.threshold_wins().ceil(),
-            p.threshold_wins(),
-            if rep.accepted {
-                "ACCEPT"
-            } else {
-                "ABORT: the protocol outputs nothing"
-            }
+            "bound: {} ({}); string kept: {}",
+            p.name(),
+            match p.bound {
+                Bound::First(_) => "first entropy accumulation theorem, spec 3",
+                Bound::Improved(_) =>
+                    "entropy accumulation with improved second-order term, Dupuis-Fawzi 2019",
+            },
+            p.keep.name()
         )?;
     } else {
         writeln!(o)?;
     }
     writeln!(
         o,
-        "certified smooth min-entropy: {} bits ({:.6} per round) of the {}-bit string a1 b1 .. aN bN, as one block",
+        "certified smooth min-entropy: {} bits ({:.6} per round) of the {}-bit string {}, as one block",
         rep.min_entropy_bits,
         rep.bits_per_round,
-        2 * rep.rounds
+        rep.string_bits,
+        rep.layout
     )?;
     if let Some(z) = &rep.zero_reason {
         writeln!(o, "  0 bits: {z}")?;
@@ -1237,7 +1666,7 @@ fn print_text(
     writeln!(
         o,
         "  for the extractor: n = {}, k = {}, eps_s = {eps_s:e}, eps_cert = {eps_cert:e} ({eps_cert_source}), one block",
-        2 * rep.rounds,
+        rep.string_bits,
         rep.min_entropy_bits
     )?;
     writeln!(
@@ -1270,7 +1699,7 @@ fn print_text(
         writeln!(
             o,
             "raw output written to {r} ({} bits, owner-only; secret)",
-            2 * rep.rounds
+            rep.string_bits
         )?;
     }
     print_cautions(&mut o, rep.mode)?;
@@ -1287,12 +1716,5 @@ mod tests {
         let w = wrap(t, 15);
         assert!(w.iter().all(|l| l.len() <= 15), "{w:?}");
         assert_eq!(w.join(" "), t);
-    }
-
-    #[test]
-    fn neighbouring_gammas_stay_in_range() {
-        assert_eq!(neighbours(0.1), (0.05, 0.2));
-        assert_eq!(neighbours(0.6), (0.3, 1.0));
-        assert_eq!(neighbours(1.0), (0.25, 0.5));
     }
 }

@@ -519,13 +519,28 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
         bail!("the output goes to standard output: give --receipt FILE for the receipt");
     }
     a.check_outputs(receipt_path.as_deref())?;
-    let (layout, auto) = if auto_mode {
+    let (layout, mut auto) = if auto_mode {
         let (l, p) = super::auto::plan_run(c, &a.security)?;
         (l, Some(p))
     } else {
         (Layout::explicit(c)?, None)
     };
+    // A certified run with an explicit seed file: nothing records the
+    // seed's uses, so the operator must say they keep that record.
+    if let Some(p) = &auto {
+        if p.has_certificate() && c.seed_file.is_some() && !a.security.own_seed_record {
+            bail!(
+                "refused: --seed-file with a certificate records no use of the seed, so reuse on another run (or twice on this raw file) would go unnoticed while the error figure assumes a single use. Rule: a certified run's seed use is recorded. What to do: use a registered seed (--seed ID or --new-seed, recorded in the ledger), or give --own-seed-record to declare that you keep your own record (the receipt then holds a digest of the seed)"
+            );
+        }
+    }
     let r = resolve(c, &layout, None)?;
+    if let Some(p) = auto.as_mut() {
+        p.set_seed_file(
+            sluice::bits::digest::data_digest(&r.seed),
+            a.security.own_seed_record,
+        );
+    }
     common::print_cautions(c.quiet);
     if let Some(p) = &auto {
         p.print_summary(c.quiet);
@@ -592,9 +607,11 @@ pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
     }
     no_second_source(&a.common)?;
     let c = &a.common;
+    let mut labels = Vec::new();
     let layout = match &a.receipt {
         Some(path) => {
             let (l, digest) = super::auto::layout_from_receipt(path)?;
+            labels = super::auto::labels_from_receipt(path)?;
             let f = c.files.input(&c.input);
             let total = l.input_bits.expect("receipts give the input length");
             let got = pipeline::digest_prefix(&f, total)?;
@@ -622,7 +639,23 @@ pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
     };
     let v = run.verify(&claimed, |done| pb.set_position(done))?;
     pb.finish_and_clear();
-    print_verdict(&v, c, &a.claimed)
+    if c.json && a.receipt.is_some() {
+        // The receipt's labels travel with the verdict.
+        let mut j = serde_json::to_value(&v)?;
+        j["labels"] = serde_json::json!(labels);
+        common::print_json(&j)?;
+        return Ok(if v.matches {
+            ExitCode::SUCCESS
+        } else {
+            ExitCode::from(1)
+        });
+    }
+    let code = print_verdict(&v, c, &a.claimed)?;
+    // The receipt's labels travel with the verdict.
+    for label in &labels {
+        println!("label: {label}");
+    }
+    Ok(code)
 }
 
 /// Prints a verification verdict; exit 0 on match, 1 on mismatch.

@@ -14,6 +14,7 @@ mod demo;
 mod extract;
 mod ledger;
 mod plan;
+mod plot;
 mod seed;
 mod two_source;
 mod vectors;

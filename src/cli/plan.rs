@@ -50,12 +50,25 @@ pub struct SecurityArgs {
     /// from a certificate written by `sluice certify`.
     #[arg(long, value_name = "FILE")]
     pub certificate: Option<PathBuf>,
-    /// Smoothing parameter of the min-entropy figure.
+    /// Smoothing parameter of the min-entropy figure (required with
+    /// --min-entropy or --min-entropy-rate; 0 claims an exact min-entropy).
     #[arg(long, value_name = "EPS_S", conflicts_with = "certificate")]
     pub smoothing: Option<f64>,
-    /// Failure term of the certification (once per certificate).
+    /// Failure term of the certification, once per certificate (required
+    /// with --min-entropy or --min-entropy-rate; 0 claims a certification
+    /// that cannot fail).
     #[arg(long, value_name = "EPS_C", conflicts_with = "certificate")]
     pub cert_error: Option<f64>,
+    /// Use a certificate computed from counts typed in by the operator
+    /// (unchecked: nothing ties its figure to the raw string); the operator
+    /// vouches for the counts. Recorded in the receipt.
+    #[arg(long)]
+    pub trust_counts: bool,
+    /// With a certificate and --seed-file: the operator keeps their own
+    /// record of this seed's uses (sluice records none). Recorded in the
+    /// receipt with a digest of the seed.
+    #[arg(long)]
+    pub own_seed_record: bool,
     /// Total error allowed for everything produced with the seed.
     #[arg(long, value_name = "EPS")]
     pub target_error: Option<f64>,
@@ -78,6 +91,31 @@ pub struct Resolved {
     pub rate_given: bool,
     /// The certificate, when the figures came from one.
     pub certificate: Option<(PathBuf, sluice::certify::certificate::Certificate, String)>,
+    /// Labels that must be shown with every figure derived from these
+    /// inputs (and written into the receipt).
+    pub labels: Vec<String>,
+}
+
+/// The label for a manual figure split over several blocks (issue: no way
+/// to overstate security, item 8).
+pub const PER_BLOCK_CLAIM_LABEL: &str = "per-block min-entropy is the operator's claim: each block's figure must hold given all earlier blocks; splitting a figure certified for the whole string by hand does not give that";
+
+/// The labels a certificate carries into every derived figure.
+pub fn certificate_labels(cert: &sluice::certify::certificate::Certificate) -> Vec<String> {
+    let mut l: Vec<String> = cert.labels.clone();
+    if !cert.device_independent && !l.iter().any(|x| x.contains("not device-independent")) {
+        l.push("not device-independent".into());
+    }
+    l.push(format!(
+        "certificate: {} model, bound {}, string {}",
+        match cert.mode {
+            sluice::certify::Mode::EntropyAccumulation => "entropy accumulation",
+            sluice::certify::Mode::IidEstimate => "i.i.d. estimate (weaker)",
+        },
+        cert.bound_name(),
+        cert.keep().name()
+    ));
+    l
 }
 
 impl SecurityArgs {
@@ -101,9 +139,22 @@ impl SecurityArgs {
                 .with_context(|| format!("{}: cannot read the certificate", path.display()))?;
             let cert = sluice::certify::certificate::Certificate::from_json_str(&text)
                 .with_context(|| format!("{}", path.display()))?;
-            let ei = cert
-                .extractor_input()
-                .with_context(|| format!("{}", path.display()))?;
+            let ei = cert.extractor_input().map_err(|e| {
+                anyhow::anyhow!(
+                    "{}: {e}. Rule: a certificate is used only if its figure follows from its own parameters and counts. What to do: use the certificate sluice certify wrote, unedited",
+                    path.display()
+                )
+            })?;
+            if cert.record.form == "counts" && !self.trust_counts {
+                anyhow::bail!(
+                    "{}: refused: this certificate was computed from counts supplied by the operator; the round record was never read, so nothing ties its figure to the raw string. Rule: unchecked figures are used only on explicit request. What to do: certify the round file itself, or give --trust-counts to vouch for the counts (recorded in the receipt)",
+                    path.display()
+                );
+            }
+            let mut labels = certificate_labels(&cert);
+            if cert.record.form == "counts" {
+                labels.push("used with --trust-counts: the operator vouches for the counts".into());
+            }
             if let Some(n) = n {
                 if n != ei.n {
                     anyhow::bail!(
@@ -139,6 +190,7 @@ impl SecurityArgs {
                 input,
                 rate_given: false,
                 certificate: Some((path.clone(), cert, digest)),
+                labels,
             });
         }
         let n = n.ok_or_else(|| anyhow::anyhow!("--input-bits: give the block length in bits"))?;
@@ -157,6 +209,31 @@ impl SecurityArgs {
                 anyhow::bail!("give --min-entropy, --min-entropy-rate or --certificate")
             }
         };
+        let (Some(eps_s), Some(eps_cert)) = (self.smoothing, self.cert_error) else {
+            anyhow::bail!(
+                "{}: refused: a min-entropy figure typed in needs its error terms. Rule: every error term enters the total; none is taken as 0 silently. What to do: give the smoothing parameter and the certification's failure term of your entropy claim (--smoothing EPS_S --cert-error EPS_C), or an explicit 0 for an exact claim that cannot fail",
+                match (self.smoothing, self.cert_error) {
+                    (None, None) => "--smoothing and --cert-error are missing",
+                    (None, _) => "--smoothing is missing",
+                    _ => "--cert-error is missing",
+                }
+            );
+        };
+        let mut labels = vec![
+            "min-entropy figure typed in by the operator (not from a sluice certificate)"
+                .to_string(),
+        ];
+        if eps_s == 0.0 {
+            labels.push(
+                "--smoothing 0: claims the min-entropy holds exactly, without smoothing".into(),
+            );
+        }
+        if eps_cert == 0.0 {
+            labels.push("--cert-error 0: claims the entropy certification cannot fail".into());
+        }
+        if blocks > 1 {
+            labels.push(PER_BLOCK_CLAIM_LABEL.into());
+        }
         let input = SelectorInput {
             n,
             k,
@@ -164,10 +241,10 @@ impl SecurityArgs {
             can_abort: None,
             budget: Budget {
                 eps_total: target,
-                eps_cert: self.cert_error.unwrap_or(0.0),
+                eps_cert,
                 eps_seed: 0.0,
                 blocks,
-                eps_s: self.smoothing.unwrap_or(0.0),
+                eps_s,
                 seed_deficiency: self.seed_deficiency,
             },
             objective: self.objective.into(),
@@ -178,6 +255,7 @@ impl SecurityArgs {
             input,
             rate_given,
             certificate: None,
+            labels,
         })
     }
 }
@@ -245,13 +323,19 @@ pub fn run(args: PlanArgs) -> anyhow::Result<ExitCode> {
         );
     }
     let resolved = args.security.resolve(args.input_bits, 1)?;
+    let labels = resolved.labels.clone();
     let input = resolved.input;
     let rate_given = resolved.rate_given;
     let speeds = speed_model();
     let sel = select::select(&input, &speeds).map_err(|e| plan_error(e, rate_given))?;
     if args.json {
-        common::print_json(&report(&input, &sel, &speeds, !args.quiet))?;
+        let mut r = report(&input, &sel, &speeds, !args.quiet);
+        r.labels = labels;
+        common::print_json(&r)?;
     } else {
+        for l in &labels {
+            println!("label: {l}");
+        }
         print_table(&input, &sel)?;
         if !args.quiet {
             print_cautions()?;
@@ -309,16 +393,21 @@ fn print_table(input: &SelectorInput, sel: &select::Selection) -> anyhow::Result
         let mark = if sel.chosen == Some(i) { "*" } else { " " };
         let name = row.construction.name();
         match &row.outcome {
-            Ok(p) => writeln!(
-                out,
-                "{mark} {name:<21} {:>12} {:>6.1}% {:>16} {:>11} {:>11} {:>14}",
-                p.m,
-                (1000.0 * p.kept).floor() / 10.0,
-                p.d,
-                ratio_cell(p.seed_per_output),
-                up4(p.eps_total),
-                time_cell(p.seconds_per_block)
-            )?,
+            Ok(p) => {
+                writeln!(
+                    out,
+                    "{mark} {name:<21} {:>12} {:>6.1}% {:>16} {:>11} {:>11} {:>14}",
+                    p.m,
+                    (1000.0 * p.kept).floor() / 10.0,
+                    p.d,
+                    ratio_cell(p.seed_per_output),
+                    up4(p.eps_total),
+                    time_cell(p.seconds_per_block)
+                )?;
+                if let Some(why) = &p.impractical {
+                    writeln!(out, "    ({why}; never chosen)")?;
+                }
+            }
             Err(e) => writeln!(out, "{mark} {name:<21} refused: {e}")?,
         }
     }
@@ -371,11 +460,13 @@ struct JsonPlanned {
     eps_total: f64,
     eps_total_rounded_up: String,
     seconds_per_block: Option<f64>,
+    impractical: Option<String>,
     trevisan: Option<sluice::plan::trevisan::TrevisanPlan>,
 }
 
 #[derive(serde::Serialize)]
 struct JsonReport<'a> {
+    labels: Vec<String>,
     inputs: &'a SelectorInput,
     rows: Vec<JsonRow>,
     chosen: Option<String>,
@@ -396,6 +487,7 @@ fn report<'a>(
     cautions: bool,
 ) -> JsonReport<'a> {
     JsonReport {
+        labels: Vec::new(),
         inputs: input,
         rows: sel
             .rows
@@ -411,6 +503,7 @@ fn report<'a>(
                     eps_total: p.eps_total,
                     eps_total_rounded_up: up4(p.eps_total),
                     seconds_per_block: p.seconds_per_block,
+                    impractical: p.impractical.clone(),
                     trevisan: p.trevisan.clone(),
                 }),
                 refused: r.outcome.as_ref().err().map(|e| e.to_string()),

@@ -401,11 +401,25 @@ pub fn run_plan(
     let dropped = raw - n;
     let k1 = ts::truncate_entropy(k1_raw, dropped);
     let k2 = ts::truncate_entropy(k2_raw, dropped);
-    let (eps_sx, eps_sy) = (
-        sec.smoothing.unwrap_or(0.0),
-        t.second_smoothing.unwrap_or(0.0),
-    );
-    let eps_cert = sec.cert_error.unwrap_or(0.0);
+    // Every error term enters the total; none is taken as 0 silently (an
+    // explicit 0 is allowed for an exact claim that cannot fail).
+    let missing: Vec<&str> = [
+        ("--smoothing", sec.smoothing.is_none()),
+        ("--second-smoothing", t.second_smoothing.is_none()),
+        ("--cert-error", sec.cert_error.is_none()),
+    ]
+    .iter()
+    .filter(|(_, m)| *m)
+    .map(|(f, _)| *f)
+    .collect();
+    let (Some(eps_sx), Some(eps_sy), Some(eps_cert)) =
+        (sec.smoothing, t.second_smoothing, sec.cert_error)
+    else {
+        bail!(
+            "{} missing: refused: the two min-entropy figures typed in need their error terms. Rule: every error term enters the total; none is taken as 0 silently. What to do: give the smoothing parameter of each source's figure and the certification's failure term (--smoothing EPS_X --second-smoothing EPS_Y --cert-error EPS_C), or an explicit 0 for an exact claim that cannot fail",
+            missing.join(", ")
+        );
+    };
     let charge = ts::smoothing_charge(eps_sx, eps_sy, false, false).map_err(plan_err)?;
     let budget = target - eps_cert - charge;
     if budget.is_nan() || budget <= 0.0 {

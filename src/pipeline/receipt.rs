@@ -36,6 +36,11 @@ pub struct Receipt {
     pub seed: SeedRecord,
     /// The certificate the entropy figures came from, if any.
     pub certificate: Option<CertificateRecord>,
+    /// Labels that must be shown with this output's figures (weaker
+    /// models, unchecked counts, operator claims, warnings); empty in
+    /// receipts written before labels existed.
+    #[serde(default)]
+    pub labels: Vec<String>,
     /// Every error term and the total.
     pub errors: Errors,
     /// What the total means.
@@ -105,6 +110,15 @@ pub struct SeedRecord {
     pub source: String,
     /// Declared deficiency s in bits.
     pub deficiency: f64,
+    /// Data digest of the seed bits used (explicit seed files): a random
+    /// seed's digest reveals nothing useful about the output and lets
+    /// receipts be compared for a reused seed.
+    #[serde(default)]
+    pub digest: Option<String>,
+    /// The operator declared that they keep their own record of this
+    /// seed's uses (explicit seed file with a certificate).
+    #[serde(default)]
+    pub own_record: bool,
 }
 
 /// The certificate.
@@ -117,6 +131,18 @@ pub struct CertificateRecord {
     pub setup: String,
     /// Whether the certificate may be called device-independent.
     pub device_independent: bool,
+    /// `entropy-accumulation` or `iid-estimate` (the weaker model).
+    #[serde(default)]
+    pub mode: Option<String>,
+    /// The bound the figure was computed with.
+    #[serde(default)]
+    pub bound: Option<String>,
+    /// `round-file`, or `counts` (unchecked: typed in by the operator).
+    #[serde(default)]
+    pub record_form: Option<String>,
+    /// Every label of the certificate, warnings included.
+    #[serde(default)]
+    pub labels: Vec<String>,
 }
 
 /// Error terms (`spec/hashing-and-composition.md` 5).

@@ -267,6 +267,32 @@ pub struct Planned {
     pub seconds_per_block: Option<f64>,
     /// The Trevisan parameters (Trevisan constructions only).
     pub trevisan: Option<TrevisanPlan>,
+    /// Why the row cannot be run in practice, if so (never chosen).
+    pub impractical: Option<String>,
+}
+
+/// Seed length above which a row is impractical: 2^36 bits (8 GiB; common
+/// practice for this tool: a seed must be stored and read once per run).
+pub const IMPRACTICAL_SEED_BITS: u64 = 1 << 36;
+
+/// Time per block above which a row is impractical on this machine: one day.
+pub const IMPRACTICAL_SECONDS_PER_BLOCK: f64 = 86_400.0;
+
+/// Why a plan cannot be run in practice, if so.
+pub fn impractical(d: u64, seconds_per_block: Option<f64>) -> Option<String> {
+    if d > IMPRACTICAL_SEED_BITS {
+        return Some(format!(
+            "impractical: a seed of {} (more than 8 GiB)",
+            human_bits(d)
+        ));
+    }
+    match seconds_per_block {
+        Some(s) if s > IMPRACTICAL_SECONDS_PER_BLOCK => Some(format!(
+            "impractical: {} per block on this machine (more than a day)",
+            human_seconds(s)
+        )),
+        _ => None,
+    }
 }
 
 /// One row of the selector's table.
@@ -331,6 +357,7 @@ pub fn plan_one(
         },
         seed_per_output: d as f64 / m as f64,
         seconds_per_block: seconds,
+        impractical: impractical(d, seconds),
         trevisan: trev,
     })
 }
@@ -353,6 +380,7 @@ pub fn select(input: &SelectorInput, model: &dyn ThroughputModel) -> Result<Sele
         .iter()
         .enumerate()
         .filter_map(|(i, r)| r.outcome.as_ref().ok().map(|p| (i, p)))
+        .filter(|(_, p)| p.impractical.is_none())
         .collect();
     let unpriced: Vec<String> = ok
         .iter()
@@ -401,9 +429,11 @@ pub fn select(input: &SelectorInput, model: &dyn ThroughputModel) -> Result<Sele
             let why = rows
                 .iter()
                 .find_map(|r| r.outcome.as_ref().err())
-                .map(|e| e.to_string())
-                .unwrap_or_default();
-            format!("no construction meets the error target: {why}")
+                .map(|e| e.to_string());
+            match why {
+                Some(why) => format!("no construction meets the error target: {why}"),
+                None => "every construction that meets the error target is impractical here (see the rows)".to_string(),
+            }
         }
         None => format!(
             "the speed of {} is not measured on this machine, so none can be chosen as fastest",
@@ -549,10 +579,27 @@ mod tests {
             "{}",
             s.reason
         );
-        // IP is not priced by this model: no choice.
+        // IP is not priced by this model, but its rows are impractical here
+        // (seeds of terabits for n = 2^20) and never chosen, so they do not
+        // block the choice among the practical, priced rows.
         let s = select(&input(Objective::Fastest), &Fixed).unwrap();
-        assert_eq!(s.chosen, None);
-        assert!(s.reason.contains("trevisan-ip"), "{}", s.reason);
+        for r in &s.rows {
+            if r.construction.name().starts_with("trevisan-ip") {
+                if let Ok(p) = &r.outcome {
+                    assert!(
+                        p.impractical.is_some(),
+                        "{}: d = {}",
+                        r.construction.name(),
+                        p.d
+                    );
+                }
+            }
+        }
+        let chosen = s.chosen.expect("a practical priced row");
+        assert!(!s.rows[chosen]
+            .construction
+            .name()
+            .starts_with("trevisan-ip"));
         let s = select(&input(Objective::Fastest), &AllPriced).unwrap();
         assert_eq!(
             s.rows[s.chosen.unwrap()].construction.name(),
@@ -638,6 +685,19 @@ mod tests {
         }
         let (_, work) = plan(24, OneBit::Ip, Design::Poly);
         assert_eq!(format!("{work:.1e}"), "4.0e12");
+    }
+
+    #[test]
+    fn impractical_rows_are_marked_and_never_picked() {
+        // Issue "no way to overstate security", item 9: a 2.8-Tbit seed and
+        // a block at 122558 days are marked, and never chosen.
+        assert!(impractical(2_800_000_000_000, None)
+            .unwrap()
+            .contains("seed"));
+        assert!(impractical(1000, Some(122_558.0 * 86_400.0))
+            .unwrap()
+            .contains("per block"));
+        assert!(impractical(1 << 20, Some(1.0)).is_none());
     }
 
     #[test]

@@ -536,7 +536,7 @@ fn decode(c: &[u64], m: usize, out: &mut [u64]) {
         *o = lo | (hi << 32);
     }
     if let Some(l) = out.last_mut() {
-        if m % 64 != 0 {
+        if !m.is_multiple_of(64) {
             *l &= (1u64 << (m % 64)) - 1;
         }
     }
@@ -557,7 +557,7 @@ mod tests {
                 s
             })
             .collect();
-        if bits % 64 != 0 {
+        if !bits.is_multiple_of(64) {
             *v.last_mut().unwrap() &= (1u64 << (bits % 64)) - 1;
         }
         v

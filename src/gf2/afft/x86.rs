@@ -255,7 +255,7 @@ fn small16<const K: u8>(c: &mut [u64], t: [u64; 3]) {
     let pts = Points::get();
     let w = |i: usize| pts.omega(2 * i) as i64;
     let tw = |base: u64, lanes: [usize; 8]| {
-        _mm512_xor_si512(_mm512_set1_epi64(base as i64), idx(lanes.map(|i| w(i))))
+        _mm512_xor_si512(_mm512_set1_epi64(base as i64), idx(lanes.map(&w)))
     };
     let l2 = tw(t[2], [0, 0, 0, 0, 1, 1, 1, 1]);
     let l1 = tw(t[1], [0, 0, 1, 1, 2, 2, 3, 3]);

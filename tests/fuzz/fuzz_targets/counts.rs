@@ -1,20 +1,12 @@
-//! Counts files of `certify --counts` (key = value), then the counts'
-//! own consistency checks.
+//! Counts files of `certify --counts` (key = value), read exactly as the
+//! command does, then the counts' own consistency checks.
 #![no_main]
 use libfuzzer_sys::fuzz_target;
-use sluice::certify::record::Summary;
-use sluice::files::keyvalue;
+use sluice::certify::params::read_counts;
 
 fuzz_target!(|data: &[u8]| {
-    let Ok(kv) = keyvalue::parse(data, &["rounds", "test-rounds", "wins", "test-probability"]) else {
-        return;
-    };
-    let num = |k: &str| kv.iter().find(|e| e.0 == k).and_then(|e| keyvalue::parse_number::<u64>(&e.1));
-    if let (Some(n), Some(t), Some(w)) = (num("rounds"), num("test-rounds"), num("wins")) {
-        let mut s = Summary::from_counts(n, t, w);
-        if s.check_counts().is_ok() {
-            assert!(s.n_test <= s.n_rounds && s.wins <= s.n_test);
-            s.add_warnings(0.5);
-        }
+    if let Ok(mut s) = read_counts(data) {
+        assert!(s.n_test <= s.n_rounds && s.wins <= s.n_test);
+        s.add_warnings(0.5);
     }
 });
