@@ -380,6 +380,44 @@ mod tests {
         Bits::from_bools(&(0..n).map(|i| (i * i + 3 * i) % 7 < 3).collect::<Vec<_>>())
     }
 
+    /// Positioned reads of a packed file against slices of the string it
+    /// holds (both bit orders, lengths not multiples of 8 or 64, ranges
+    /// reaching past the end).
+    #[test]
+    fn packed_file_ranges_match_slices() {
+        use super::super::source::{read_virtual, BitSource};
+        let all = sample(10_007);
+        for order in [BitOrder::Msb, BitOrder::Lsb] {
+            let f = tempfile::NamedTempFile::new().unwrap();
+            std::fs::write(f.path(), all.to_packed(order)).unwrap();
+            for bits in [10_007u64, 9_999, 64, 1] {
+                let mut src = PackedFileSource::open(f.path(), bits, order).unwrap();
+                assert_eq!(src.bits(), bits);
+                let mut tmp = Vec::new();
+                for (start, len) in [
+                    (0i64, 10_007usize),
+                    (5, 333),
+                    (-70, 200),
+                    (9_990, 100),
+                    (64, 64),
+                ] {
+                    let mut out = vec![0u64; words_for(len)];
+                    read_virtual(&mut src, 0, start, len, &mut out, &mut tmp).unwrap();
+                    for i in 0..len {
+                        let j = start + i as i64;
+                        let want = j >= 0 && (j as u64) < bits && all.get(j as usize);
+                        assert_eq!(
+                            (out[i / 64] >> (i % 64)) & 1 == 1,
+                            want,
+                            "{order:?} bits={bits} start={start} bit {i}"
+                        );
+                    }
+                }
+            }
+            assert!(PackedFileSource::open(f.path(), 10_008 + 8, order).is_err());
+        }
+    }
+
     #[test]
     fn blocks_of_odd_sizes_follow_the_stream() {
         let all = sample(10_000);
@@ -438,4 +476,92 @@ mod tests {
         assert!(matches!(e.kind(), ErrorKind::OddHexDigits));
         assert_eq!(e.offset(), Some(2));
     }
+}
+
+/// A packed bit file read by ranges (positioned reads, no seeking state):
+/// the [`super::source::BitSource`] of a whole-run hash's input or seed
+/// when it is not held in memory.
+pub struct PackedFileSource {
+    file: File,
+    path: PathBuf,
+    bits: u64,
+    order: BitOrder,
+    bytes: Vec<u8>,
+}
+
+impl PackedFileSource {
+    /// The first `bits` bits of the packed file at `path` (refused when the
+    /// file is shorter).
+    pub fn open(path: &Path, bits: u64, order: BitOrder) -> Result<Self, Error> {
+        let file = File::open(path).map_err(|e| Error::from(e).in_file(path))?;
+        let len = file
+            .metadata()
+            .map_err(|e| Error::from(e).in_file(path))?
+            .len();
+        if len.saturating_mul(8) < bits {
+            return Err(Error::new(ErrorKind::TooShort {
+                wanted: bits,
+                available: len * 8,
+            })
+            .in_file(path));
+        }
+        Ok(PackedFileSource {
+            file,
+            path: path.to_path_buf(),
+            bits,
+            order,
+            bytes: Vec::new(),
+        })
+    }
+}
+
+impl super::source::BitSource for PackedFileSource {
+    fn bits(&self) -> u64 {
+        self.bits
+    }
+
+    fn read_words(&mut self, first: u64, out: &mut [u64]) -> std::io::Result<()> {
+        out.fill(0);
+        let total = self.bits.div_ceil(8);
+        let start = first.saturating_mul(8);
+        if start >= total {
+            return Ok(());
+        }
+        let k = ((total - start) as usize).min(8 * out.len());
+        self.bytes.clear();
+        self.bytes.resize(k, 0);
+        read_exact_at(&self.file, &mut self.bytes, start).map_err(|e| {
+            std::io::Error::new(
+                e.kind(),
+                format!("{}: byte {start}: {e}", self.path.display()),
+            )
+        })?;
+        pack_bytes_into_words(&self.bytes, self.order, out);
+        // Bits at or beyond the length read as zero.
+        let end_bit = self.bits.saturating_sub(64 * first);
+        if end_bit < 64 * out.len() as u64 {
+            let w = (end_bit / 64) as usize;
+            let r = end_bit % 64;
+            if r != 0 {
+                out[w] &= (1u64 << r) - 1;
+                out[w + 1..].fill(0);
+            } else {
+                out[w..].fill(0);
+            }
+        }
+        Ok(())
+    }
+}
+
+#[cfg(unix)]
+fn read_exact_at(f: &File, buf: &mut [u8], offset: u64) -> std::io::Result<()> {
+    std::os::unix::fs::FileExt::read_exact_at(f, buf, offset)
+}
+
+#[cfg(not(unix))]
+fn read_exact_at(f: &File, buf: &mut [u8], offset: u64) -> std::io::Result<()> {
+    use std::io::Seek;
+    let mut f = f;
+    f.seek(std::io::SeekFrom::Start(offset))?;
+    f.read_exact(buf)
 }

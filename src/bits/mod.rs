@@ -15,6 +15,7 @@
 pub mod digest;
 mod error;
 pub mod io;
+pub mod source;
 
 pub use error::{Error, ErrorKind};
 

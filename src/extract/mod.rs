@@ -16,6 +16,7 @@ pub mod reference;
 pub mod toeplitz;
 pub mod trevisan;
 pub mod two_source;
+pub mod whole_run;
 
 pub use modified_toeplitz::ModifiedToeplitz;
 pub use toeplitz::Toeplitz;

@@ -251,11 +251,49 @@ impl Window {
         }
     }
 
+    /// Seed bits `n + m - 1`.
+    pub fn seed_bits_needed(&self) -> usize {
+        match &self.inner {
+            Inner::Clmul(w) => w.seed_bits(),
+            Inner::Fft(f) => f.input_bits() + f.output_bits() - 1,
+            Inner::Additive(a) => a.seed_bits(),
+        }
+    }
+
+    /// Transform length in points (additive FFT) or complex points (float
+    /// FFT); 0 for Karatsuba.
+    pub fn transform_points(&self) -> usize {
+        match &self.inner {
+            Inner::Clmul(_) => 0,
+            Inner::Fft(f) => f.len(),
+            Inner::Additive(a) => a.transform_len(),
+        }
+    }
+
+    /// Bytes of working memory beyond input, seed and output: the prepared
+    /// seed and the scratch of one [`compute`](Self::compute).
+    pub fn working_bytes(&self) -> usize {
+        match &self.inner {
+            // The padded diagonal sequence and its shifted copy.
+            Inner::Clmul(w) => 8 * (w.scratch_len() + 2 * (w.seed_bits() / 64 + 2)),
+            // Real buffer, spectrum and the seed's spectrum (complex
+            // halves), plus the FFT's own scratch (at most as long).
+            Inner::Fft(f) => 40 * f.len(),
+            Inner::Additive(a) => a.working_bytes(),
+        }
+    }
+
     /// Prepares a seed of `n + m - 1` bits (in words).
     pub fn prepare(&self, seed: &[u64]) -> WindowSeed {
         let mut s = WindowSeed::Empty;
-        let mut sc = self.make_scratch();
-        self.prepare_into(seed, &mut s, &mut sc);
+        match &self.inner {
+            // Only the float FFT prepares in a scratch.
+            Inner::Fft(_) => {
+                let mut sc = self.make_scratch();
+                self.prepare_into(seed, &mut s, &mut sc);
+            }
+            _ => self.prepare_into(seed, &mut s, &mut WindowScratch::Words(Vec::new())),
+        }
         s
     }
 
