@@ -372,6 +372,94 @@ impl<W: Write> BitWriter<W> {
     }
 }
 
+/// A packed bit file read by ranges (positioned reads, no seeking state):
+/// the [`super::source::BitSource`] of a whole-run hash's input or seed
+/// when it is not held in memory.
+pub struct PackedFileSource {
+    file: File,
+    path: PathBuf,
+    bits: u64,
+    order: BitOrder,
+    bytes: Vec<u8>,
+}
+
+impl PackedFileSource {
+    /// The first `bits` bits of the packed file at `path` (refused when the
+    /// file is shorter).
+    pub fn open(path: &Path, bits: u64, order: BitOrder) -> Result<Self, Error> {
+        let file = File::open(path).map_err(|e| Error::from(e).in_file(path))?;
+        let len = file
+            .metadata()
+            .map_err(|e| Error::from(e).in_file(path))?
+            .len();
+        if len.saturating_mul(8) < bits {
+            return Err(Error::new(ErrorKind::TooShort {
+                wanted: bits,
+                available: len * 8,
+            })
+            .in_file(path));
+        }
+        Ok(PackedFileSource {
+            file,
+            path: path.to_path_buf(),
+            bits,
+            order,
+            bytes: Vec::new(),
+        })
+    }
+}
+
+impl super::source::BitSource for PackedFileSource {
+    fn bits(&self) -> u64 {
+        self.bits
+    }
+
+    fn read_words(&mut self, first: u64, out: &mut [u64]) -> std::io::Result<()> {
+        out.fill(0);
+        let total = self.bits.div_ceil(8);
+        let start = first.saturating_mul(8);
+        if start >= total {
+            return Ok(());
+        }
+        let k = ((total - start) as usize).min(8 * out.len());
+        self.bytes.clear();
+        self.bytes.resize(k, 0);
+        read_exact_at(&self.file, &mut self.bytes, start).map_err(|e| {
+            std::io::Error::new(
+                e.kind(),
+                format!("{}: byte {start}: {e}", self.path.display()),
+            )
+        })?;
+        pack_bytes_into_words(&self.bytes, self.order, out);
+        // Bits at or beyond the length read as zero.
+        let end_bit = self.bits.saturating_sub(64 * first);
+        if end_bit < 64 * out.len() as u64 {
+            let w = (end_bit / 64) as usize;
+            let r = end_bit % 64;
+            if r != 0 {
+                out[w] &= (1u64 << r) - 1;
+                out[w + 1..].fill(0);
+            } else {
+                out[w..].fill(0);
+            }
+        }
+        Ok(())
+    }
+}
+
+#[cfg(unix)]
+fn read_exact_at(f: &File, buf: &mut [u8], offset: u64) -> std::io::Result<()> {
+    std::os::unix::fs::FileExt::read_exact_at(f, buf, offset)
+}
+
+#[cfg(not(unix))]
+fn read_exact_at(f: &File, buf: &mut [u8], offset: u64) -> std::io::Result<()> {
+    use std::io::Seek;
+    let mut f = f;
+    f.seek(std::io::SeekFrom::Start(offset))?;
+    f.read_exact(buf)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -476,92 +564,4 @@ mod tests {
         assert!(matches!(e.kind(), ErrorKind::OddHexDigits));
         assert_eq!(e.offset(), Some(2));
     }
-}
-
-/// A packed bit file read by ranges (positioned reads, no seeking state):
-/// the [`super::source::BitSource`] of a whole-run hash's input or seed
-/// when it is not held in memory.
-pub struct PackedFileSource {
-    file: File,
-    path: PathBuf,
-    bits: u64,
-    order: BitOrder,
-    bytes: Vec<u8>,
-}
-
-impl PackedFileSource {
-    /// The first `bits` bits of the packed file at `path` (refused when the
-    /// file is shorter).
-    pub fn open(path: &Path, bits: u64, order: BitOrder) -> Result<Self, Error> {
-        let file = File::open(path).map_err(|e| Error::from(e).in_file(path))?;
-        let len = file
-            .metadata()
-            .map_err(|e| Error::from(e).in_file(path))?
-            .len();
-        if len.saturating_mul(8) < bits {
-            return Err(Error::new(ErrorKind::TooShort {
-                wanted: bits,
-                available: len * 8,
-            })
-            .in_file(path));
-        }
-        Ok(PackedFileSource {
-            file,
-            path: path.to_path_buf(),
-            bits,
-            order,
-            bytes: Vec::new(),
-        })
-    }
-}
-
-impl super::source::BitSource for PackedFileSource {
-    fn bits(&self) -> u64 {
-        self.bits
-    }
-
-    fn read_words(&mut self, first: u64, out: &mut [u64]) -> std::io::Result<()> {
-        out.fill(0);
-        let total = self.bits.div_ceil(8);
-        let start = first.saturating_mul(8);
-        if start >= total {
-            return Ok(());
-        }
-        let k = ((total - start) as usize).min(8 * out.len());
-        self.bytes.clear();
-        self.bytes.resize(k, 0);
-        read_exact_at(&self.file, &mut self.bytes, start).map_err(|e| {
-            std::io::Error::new(
-                e.kind(),
-                format!("{}: byte {start}: {e}", self.path.display()),
-            )
-        })?;
-        pack_bytes_into_words(&self.bytes, self.order, out);
-        // Bits at or beyond the length read as zero.
-        let end_bit = self.bits.saturating_sub(64 * first);
-        if end_bit < 64 * out.len() as u64 {
-            let w = (end_bit / 64) as usize;
-            let r = end_bit % 64;
-            if r != 0 {
-                out[w] &= (1u64 << r) - 1;
-                out[w + 1..].fill(0);
-            } else {
-                out[w..].fill(0);
-            }
-        }
-        Ok(())
-    }
-}
-
-#[cfg(unix)]
-fn read_exact_at(f: &File, buf: &mut [u8], offset: u64) -> std::io::Result<()> {
-    std::os::unix::fs::FileExt::read_exact_at(f, buf, offset)
-}
-
-#[cfg(not(unix))]
-fn read_exact_at(f: &File, buf: &mut [u8], offset: u64) -> std::io::Result<()> {
-    use std::io::Seek;
-    let mut f = f;
-    f.seek(std::io::SeekFrom::Start(offset))?;
-    f.read_exact(buf)
 }
