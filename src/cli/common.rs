@@ -66,7 +66,7 @@ pub fn progress_bits(total: u64, what: &str) -> indicatif::ProgressBar {
     let pb = progress(total, what);
     pb.set_style(
         indicatif::ProgressStyle::with_template(
-            "{msg} [{bar:40}] {percent:>3}% {human_pos}/{human_len} input bits, eta {eta}",
+            "{msg} [{bar:40}] {percent:>3}% {human_pos}/{human_len} input bits, {per_sec}, eta {eta}",
         )
         .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar())
         .progress_chars("=> "),

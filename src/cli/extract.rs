@@ -61,6 +61,11 @@ pub struct TrevisanArgs {
 pub struct Common {
     /// Raw input file (`-` for standard input)
     pub input: PathBuf,
+    /// Working memory one whole-run block may take (e.g. 8G, 512M; default
+    /// 90% of the memory available). A smaller limit cuts the product into
+    /// more tiles (slower, more passes over the input)
+    #[arg(long = "memory-limit", value_name = "SIZE", value_parser = parse_size)]
+    pub memory_limit: Option<u64>,
     /// Which extractor to run (chosen by the planner when not given)
     #[arg(long, value_enum)]
     pub extractor: Option<ExtractorArg>,
@@ -137,6 +142,70 @@ pub struct ExtractArgs {
     /// earlier output of sluice (an input is never replaced)
     #[arg(long)]
     pub force: bool,
+}
+
+/// A size in bytes: a number with an optional K, M, G or T suffix (powers
+/// of 1024).
+pub fn parse_size(s: &str) -> Result<u64, String> {
+    let t = s.trim();
+    let (num, mult) = match t.char_indices().last() {
+        Some((i, c)) if c.is_ascii_alphabetic() => {
+            let m = match c.to_ascii_uppercase() {
+                'K' => 1u64 << 10,
+                'M' => 1 << 20,
+                'G' => 1 << 30,
+                'T' => 1 << 40,
+                'B' => 1,
+                _ => return Err(format!("{s:?}: the suffix must be K, M, G or T")),
+            };
+            (&t[..i], m)
+        }
+        _ => (t, 1),
+    };
+    let v: f64 = num
+        .trim()
+        .parse()
+        .map_err(|_| format!("{s:?} is not a size such as 8G or 512M"))?;
+    if !(v.is_finite() && v > 0.0) {
+        return Err(format!("{s:?}: a size must be positive"));
+    }
+    Ok((v * mult as f64) as u64)
+}
+
+/// Before a whole-run block: one line with the layout, the memory and the
+/// time it needs (the time from a small product timed now, scaled by the
+/// work), on stderr unless quiet.
+pub fn print_whole_run_estimate(run: &Run, quiet: bool) -> anyhow::Result<()> {
+    let Some(plan) = run.whole_run_plan() else {
+        return Ok(());
+    };
+    let plan = plan?;
+    if quiet {
+        return Ok(());
+    }
+    let e = plan.estimate();
+    let layout = if e.in_memory {
+        "input and seed in memory".to_string()
+    } else {
+        format!(
+            "{} tile(s) of {} input x {} output bits, {} pass(es) over the input",
+            e.tiles, e.block_bits, e.chunk_bits, e.input_passes
+        )
+    };
+    let secs = sluice::extract::whole_run::seconds_per_work(plan.engine()) * e.work;
+    eprintln!(
+        "one block of {} bits as a whole run on engine {}: {layout}; about {:.1} GiB of working memory (limit {:.1} GiB) and {}",
+        plan.input_bits(),
+        plan.engine(),
+        e.memory_bytes as f64 / (1u64 << 30) as f64,
+        pipeline::memory_limit() as f64 / (1u64 << 30) as f64,
+        if e.work > 0.0 {
+            format!("about {secs:.0} s of hashing")
+        } else {
+            "a few seconds of hashing".into()
+        }
+    );
+    Ok(())
 }
 
 impl ExtractArgs {
@@ -479,7 +548,8 @@ pub fn describe(r: &Report, c: &Common, plan: &dyn Extractor) -> String {
         plan.output_bits(),
         r.output_bits,
         plan.seed_bits(),
-        c.engine
+        plan.engine()
+            .map_or(c.engine.to_string(), |e| e.to_string())
     );
     if r.trailing_bits_unused > 0 {
         s.push_str(&format!(
@@ -509,6 +579,9 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
         return super::two_source::run_extract(&a);
     }
     no_second_source(&a.common)?;
+    if let Some(b) = a.common.memory_limit {
+        pipeline::set_memory_limit(b);
+    }
     if a.ledgered.active() {
         return super::ledger::run_extract(a);
     }
@@ -546,7 +619,7 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
         p.print_summary(c.quiet);
     }
     let output = c.files.output(&a.output);
-    let pb = common::progress_bits(r.bar_total(layout.input_bits), "extracting");
+    let bar_total = r.bar_total(layout.input_bits);
     let run = Run {
         input: r.source,
         input_bits: layout.input_bits,
@@ -554,6 +627,8 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
         seed: &r.seed,
         output,
     };
+    print_whole_run_estimate(&run, c.quiet)?;
+    let pb = common::progress_bits(bar_total, "extracting");
     let report = run.execute_replacing(sluice::files::Replace::forced(a.force), |done| {
         pb.set_position(done)
     })?;
@@ -570,7 +645,10 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
     if c.json {
         let j = ExtractJson {
             extractor: r.plan.name(),
-            engine: c.engine.to_string(),
+            engine: r
+                .plan
+                .engine()
+                .map_or(c.engine.to_string(), |e| e.to_string()),
             input_bits_per_block: r.plan.input_bits(),
             output_bits_per_block: r.plan.output_bits(),
             seed_bits: r.plan.seed_bits(),
@@ -606,6 +684,9 @@ pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
         return super::two_source::run_verify(&a);
     }
     no_second_source(&a.common)?;
+    if let Some(b) = a.common.memory_limit {
+        pipeline::set_memory_limit(b);
+    }
     let c = &a.common;
     let mut labels = Vec::new();
     let layout = match &a.receipt {

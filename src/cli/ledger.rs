@@ -563,7 +563,7 @@ pub fn run_extract(a: super::extract::ExtractArgs) -> anyhow::Result<ExitCode> {
         receipt: Some(receipt_path.clone()),
     };
     let output = c.files.output(&a.output);
-    let pb = common::progress_bits(r.bar_total(layout.input_bits), "extracting");
+    let bar_total = r.bar_total(layout.input_bits);
     let run = pipeline::Run {
         input: r.source,
         input_bits: layout.input_bits,
@@ -571,6 +571,8 @@ pub fn run_extract(a: super::extract::ExtractArgs) -> anyhow::Result<ExitCode> {
         seed: &r.seed,
         output: output.clone(),
     };
+    super::extract::print_whole_run_estimate(&run, c.quiet)?;
+    let pb = common::progress_bits(bar_total, "extracting");
     let after = |report: &pipeline::Report| -> Result<(String, Option<String>), String> {
         let out_digest =
             pipeline::digest_prefix(&output, report.output_bits).map_err(|e| e.to_string())?;

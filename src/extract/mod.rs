@@ -93,6 +93,11 @@ pub trait Extractor: Send + Sync {
     fn output_bits(&self) -> usize;
     /// Seed length d in bits.
     fn seed_bits(&self) -> usize;
+    /// The product engine, for the families that have one (Toeplitz and
+    /// modified Toeplitz: the whole-run path plans with it).
+    fn engine(&self) -> Option<Engine> {
+        None
+    }
     /// Extracts one block.
     ///
     /// # Panics

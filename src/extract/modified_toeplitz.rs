@@ -64,6 +64,9 @@ impl Extractor for ModifiedToeplitz {
     fn name(&self) -> &'static str {
         "modified-toeplitz"
     }
+    fn engine(&self) -> Option<Engine> {
+        Some(ModifiedToeplitz::engine(self))
+    }
     fn input_bits(&self) -> usize {
         self.n
     }

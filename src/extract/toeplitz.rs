@@ -93,6 +93,9 @@ impl Extractor for Toeplitz {
     fn name(&self) -> &'static str {
         "toeplitz"
     }
+    fn engine(&self) -> Option<Engine> {
+        Some(Toeplitz::engine(self))
+    }
     fn input_bits(&self) -> usize {
         self.n
     }

@@ -405,6 +405,31 @@ impl WholeRun {
     }
 }
 
+/// Seconds per unit of [`Estimate::work`] on this machine for `engine`,
+/// from one product of `2^22` bits (`2^18` points) timed now, best of two
+/// (0 for engines other than the additive FFT). Good for "about" only:
+/// larger transforms run from memory rather than cache.
+pub fn seconds_per_work(engine: Engine) -> f64 {
+    let Engine::Additive(be) = engine else {
+        return 0.0;
+    };
+    let (n, m) = (1usize << 22, 1usize << 21);
+    let w = AfftWindow::new(n, m, be);
+    let seed = vec![0x5555_5555_5555_5555u64; words_for(w.seed_bits())];
+    let x = vec![0x0f0f_0f0f_0f0f_0f0fu64; words_for(n)];
+    let prepared = w.prepare(&seed);
+    let mut out = vec![0u64; words_for(m)];
+    let mut scratch = memory::zeroed(w.scratch_len());
+    let mut best = f64::INFINITY;
+    for _ in 0..2 {
+        let t = std::time::Instant::now();
+        w.compute(&prepared, &x, &mut out, &mut scratch);
+        best = best.min(t.elapsed().as_secs_f64());
+    }
+    let points = w.transform_len() as f64;
+    best / (2.0 * points * points.log2())
+}
+
 fn describe(e: &Estimate) -> String {
     if e.in_memory {
         "input and seed in memory".into()

@@ -10,9 +10,12 @@
 pub mod ledgered;
 pub mod receipt;
 
+use crate::bits::io::PackedFileSource;
 use crate::bits::io::{open_input, BitWriter, BlockReader};
+use crate::bits::source::WordsSource;
 use crate::bits::{BitOrder, Bits, Error as BitsError, ErrorKind as BitsErrorKind, Format};
-use crate::extract::{Extractor, SeededExtractor};
+use crate::extract::whole_run::{Family, WholeRun};
+use crate::extract::{Engine, Extractor, SeededExtractor};
 use crate::files::{fault, AtomicFile, Kind, Replace};
 use rayon::prelude::*;
 use std::io::{self, Write};
@@ -124,6 +127,9 @@ pub enum Error {
     /// A size that cannot be held in memory.
     #[error(transparent)]
     TooLarge(Box<crate::files::space::TooLarge>),
+    /// A whole-run block cannot be planned or read.
+    #[error(transparent)]
+    WholeRun(#[from] crate::extract::whole_run::Error),
     /// The input holds no full block.
     #[error("{path}: the input holds {available} bits, fewer than one block of {block} bits; nothing was written")]
     NoBlock {
@@ -144,6 +150,29 @@ impl From<crate::files::space::TooLarge> for Error {
 
 /// Blocks per parallel batch, and the memory it may take.
 const BATCH_BYTES: usize = 256 << 20;
+
+/// From this block length on, one Toeplitz or modified Toeplitz block read
+/// from a packed file goes through [`crate::extract::whole_run`] (input read
+/// piece by piece, output written chunk by chunk, memory bounded).
+pub const WHOLE_RUN_MIN_BITS: usize = 1 << 24;
+
+static MEMORY_LIMIT: AtomicU64 = AtomicU64::new(0);
+
+/// Sets the working memory a whole-run block may take, in bytes, for the
+/// rest of the process (0: 90% of the memory available when it starts).
+pub fn set_memory_limit(bytes: u64) {
+    MEMORY_LIMIT.store(bytes, Ordering::Relaxed);
+}
+
+/// The working memory a whole-run block may take now.
+pub fn memory_limit() -> u64 {
+    match MEMORY_LIMIT.load(Ordering::Relaxed) {
+        0 => crate::files::space::available_memory()
+            .map(|a| a / 10 * 9)
+            .unwrap_or(u64::MAX),
+        b => b,
+    }
+}
 
 /// How often the progress of a running batch is read.
 const PROGRESS_EVERY: Duration = Duration::from_millis(100);
@@ -246,16 +275,18 @@ impl Run<'_> {
     pub fn verify(&self, claimed: &BitFile, progress: impl FnMut(u64)) -> Result<Verdict, Error> {
         let r = open_input(&claimed.path)?;
         let mut cr = BlockReader::new(r, &claimed.path, claimed.format, claimed.order);
-        let m = self.extractor.output_bits();
-        let mut buf = Bits::zeros(m);
+        let mut buf = Bits::new();
         let mut v = Verdict::default();
         let mut short = false;
+        // Output pieces come as blocks of m bits, or as the chunks of one
+        // whole-run block.
         let report = self.execute_with(progress, |y| {
             let at = v.computed_bits;
-            v.computed_bits += m as u64;
+            v.computed_bits += y.len() as u64;
             if short {
                 return Ok(());
             }
+            buf.resize(y.len());
             if cr.next_block(&mut buf)? {
                 if let Some(i) = y.first_difference(&buf) {
                     v.first_difference.get_or_insert(at + i as u64);
@@ -304,6 +335,9 @@ impl Run<'_> {
     ) -> Result<Report, Error> {
         let n = self.extractor.input_bits();
         let m = self.extractor.output_bits();
+        if let Some((family, path, order, total)) = self.whole_run_input() {
+            return self.execute_whole_run(family, path, order, total, progress, consume);
+        }
         // Sizes are checked against what the input can hold and against
         // the memory available before the batch is allocated.
         if let Source::File(f) = &self.input {
@@ -398,6 +432,109 @@ impl Run<'_> {
             });
         }
         Ok(report)
+    }
+}
+
+impl Run<'_> {
+    /// The input of a whole-run block: a Toeplitz or modified Toeplitz
+    /// extractor of at least [`WHOLE_RUN_MIN_BITS`] input bits, a packed
+    /// regular file holding one block (and less than a second).
+    fn whole_run_input(&self) -> Option<(Family, &Path, BitOrder, u64)> {
+        let n = self.extractor.input_bits();
+        let family = match self.extractor.name() {
+            "toeplitz" => Family::Toeplitz,
+            "modified-toeplitz" => Family::ModifiedToeplitz,
+            _ => return None,
+        };
+        let Source::File(f) = &self.input else {
+            return None;
+        };
+        if n < WHOLE_RUN_MIN_BITS || f.is_std() || f.format != Format::Packed {
+            return None;
+        }
+        let held = crate::bits::io::max_bits_in(&f.path, f.format)?;
+        let total = self.input_bits.unwrap_or(held);
+        (total >= n as u64 && total / (n as u64) == 1 && total <= held).then_some((
+            family,
+            f.path.as_path(),
+            f.order,
+            total,
+        ))
+    }
+
+    /// The whole-run plan of this run, when its one block goes that way
+    /// (see [`WHOLE_RUN_MIN_BITS`]); planned again by the run itself.
+    pub fn whole_run_plan(&self) -> Option<Result<WholeRun, Error>> {
+        let (family, ..) = self.whole_run_input()?;
+        let engine = self.extractor.engine().unwrap_or(Engine::Auto);
+        Some(
+            WholeRun::new(
+                family,
+                self.extractor.input_bits() as u64,
+                self.extractor.output_bits() as u64,
+                engine,
+                memory_limit(),
+            )
+            .map_err(Error::from),
+        )
+    }
+
+    /// One block through [`WholeRun`]: planned within [`memory_limit`], the
+    /// input read from the file piece by piece, the output handed to
+    /// `consume` chunk by chunk; `progress` reports input bits (a run in
+    /// several passes over the input reports its share of each).
+    fn execute_whole_run(
+        &self,
+        family: Family,
+        path: &Path,
+        order: BitOrder,
+        total: u64,
+        mut progress: impl FnMut(u64),
+        mut consume: impl FnMut(&Bits) -> Result<(), Error>,
+    ) -> Result<Report, Error> {
+        let (n, m) = (
+            self.extractor.input_bits() as u64,
+            self.extractor.output_bits() as u64,
+        );
+        let engine = self.extractor.engine().unwrap_or(Engine::Auto);
+        let plan = WholeRun::new(family, n, m, engine, memory_limit())?;
+        let mut input = PackedFileSource::open(path, n, order).map_err(Error::Input)?;
+        let mut seed = WordsSource::new(self.seed.words(), self.seed.len() as u64);
+        let work = plan.work_bits().max(1);
+        let mut done = 0u64;
+        let mut failed: Option<Error> = None;
+        let r = plan.run(
+            &mut input,
+            &mut seed,
+            &mut |chunk| match consume(chunk) {
+                Ok(()) => Ok(()),
+                Err(e) => {
+                    failed = Some(e);
+                    Err(io::Error::other("the output could not be written"))
+                }
+            },
+            &mut |d| {
+                done += d;
+                progress((done as u128 * n as u128 / work as u128) as u64);
+            },
+        );
+        if let Some(e) = failed {
+            return Err(e);
+        }
+        r.map_err(|e| match e {
+            crate::extract::whole_run::Error::Io(io) => {
+                Error::Input(BitsError::from(io).in_file(path))
+            }
+            e => Error::WholeRun(e),
+        })?;
+        progress(n);
+        Ok(Report {
+            blocks: 1,
+            block_bits: n,
+            input_bits_used: n,
+            trailing_bits_unused: total - n,
+            output_bits: m,
+        })
     }
 }
 
