@@ -129,7 +129,7 @@ pub enum Error {
     TooLarge(Box<crate::files::space::TooLarge>),
     /// A whole-run block cannot be planned or read.
     #[error(transparent)]
-    WholeRun(#[from] crate::extract::whole_run::Error),
+    WholeRun(Box<crate::extract::whole_run::Error>),
     /// The input holds no full block.
     #[error("{path}: the input holds {available} bits, fewer than one block of {block} bits; nothing was written")]
     NoBlock {
@@ -140,6 +140,12 @@ pub enum Error {
         /// Block size.
         block: u64,
     },
+}
+
+impl From<crate::extract::whole_run::Error> for Error {
+    fn from(e: crate::extract::whole_run::Error) -> Self {
+        Error::WholeRun(Box::new(e))
+    }
 }
 
 impl From<crate::files::space::TooLarge> for Error {
@@ -525,7 +531,7 @@ impl Run<'_> {
             crate::extract::whole_run::Error::Io(io) => {
                 Error::Input(BitsError::from(io).in_file(path))
             }
-            e => Error::WholeRun(e),
+            e => Error::from(e),
         })?;
         progress(n);
         Ok(Report {
