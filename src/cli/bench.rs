@@ -213,6 +213,8 @@ fn reset_peak() {
 
 /// `sluice bench --whole-run`.
 fn whole_run(a: &BenchArgs) -> anyhow::Result<ExitCode> {
+    use sluice::bits::source::WordsSource;
+    use sluice::extract::whole_run::{Family, WholeRun};
     use sluice::gf2::outside::Gf2x;
     use sluice::gf2::window::Engine as E;
     let top = a.max_log2.unwrap_or(26);
@@ -264,7 +266,24 @@ fn whole_run(a: &BenchArgs) -> anyhow::Result<ExitCode> {
                     peak_mib: peak_rss_mib(),
                 });
             }
-            let mut engines = vec![E::Additive(best)];
+            // The whole-run path as `extract` takes it (from 2^24 bits):
+            // tiles when they need less work than one product in memory.
+            let whole = (n >= sluice::pipeline::WHOLE_RUN_MIN_BITS)
+                .then(|| {
+                    WholeRun::new(
+                        Family::Toeplitz,
+                        n as u64,
+                        m as u64,
+                        E::Additive(best),
+                        u64::MAX,
+                    )
+                })
+                .transpose()?
+                .filter(|w| !w.estimate().in_memory);
+            let mut engines = Vec::new();
+            if log_n <= 30 || whole.is_none() {
+                engines.push(E::Additive(best));
+            }
             if log_n <= 26 {
                 engines.push(E::Clmul(best));
             }
@@ -272,6 +291,50 @@ fn whole_run(a: &BenchArgs) -> anyhow::Result<ExitCode> {
                 let pool = rayon::ThreadPoolBuilder::new()
                     .num_threads(threads)
                     .build()?;
+                if let Some(w) = &whole {
+                    pb.set_message(format!("whole run 2^{log_n} m={m} {threads} thread(s)"));
+                    reset_peak();
+                    let t = pool.install(|| -> anyhow::Result<f64> {
+                        let mut y = Bits::zeros(m);
+                        let mut best_t = f64::MAX;
+                        for _ in 0..runs {
+                            let t = Instant::now();
+                            let mut at = 0usize;
+                            w.run(
+                                &mut WordsSource::new(x.words(), n as u64),
+                                &mut WordsSource::new(s.words(), (n + m - 1) as u64),
+                                &mut |c: &Bits| {
+                                    // Chunks end on word boundaries but the last.
+                                    if at % 64 == 0 {
+                                        let w = c.words();
+                                        y.words_mut()[at / 64..at / 64 + w.len()]
+                                            .copy_from_slice(w);
+                                    } else {
+                                        for i in 0..c.len() {
+                                            y.set(at + i, c.get(i));
+                                        }
+                                    }
+                                    at += c.len();
+                                    Ok(())
+                                },
+                                &mut |_| {},
+                            )?;
+                            best_t = best_t.min(t.elapsed().as_secs_f64());
+                        }
+                        Ok(best_t)
+                    })?;
+                    let e = w.estimate();
+                    rows.push(WholeRow {
+                        input_bits: n,
+                        output_bits: m,
+                        threads,
+                        engine: format!("{} ({} tiles)", w.engine().name(), e.tiles),
+                        seconds: t,
+                        input_mbit_per_s: n as f64 / t / 1e6,
+                        ratio_to_gf2x: reference.map(|r| t / r),
+                        peak_mib: peak_rss_mib(),
+                    });
+                }
                 for &engine in &engines {
                     pb.set_message(format!("{engine} 2^{log_n} m={m} {threads} thread(s)"));
                     reset_peak();

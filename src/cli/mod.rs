@@ -92,6 +92,14 @@ pub fn main() -> ExitCode {
         Command::Seed(a) => seed::run(a),
         Command::Ledger(a) => ledger::run(a),
     };
+    if sluice::files::interrupt::interrupted() {
+        // The signal thread is cleaning up and ends the process with 130 /
+        // 143 and its own report; an error this thread met because of the
+        // interruption (a refused rename) must not pre-empt it.
+        loop {
+            std::thread::park();
+        }
+    }
     match result {
         Ok(code) => code,
         Err(e) => common::report_error(&e),

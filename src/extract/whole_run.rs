@@ -368,11 +368,14 @@ impl WholeRun {
                             &mut tmp,
                         )?;
                         window.transform_input(&xw, &mut fx);
+                        // Half of the tile's share after each transform.
+                        let share = b.min(tn - j * b);
+                        progress(share / 2);
                         let o = (n1 - b + start) as i64 - (j * b) as i64;
                         read_virtual(seed, p, o, sbits, &mut sw, &mut tmp)?;
                         window.prepare_into(&sw, &mut sp);
                         window.accumulate(&mut acc, &fx, &sp);
-                        progress(b.min(tn - j * b));
+                        progress(share - share / 2);
                     }
                     window.finish(&mut acc, out.words_mut());
                     let mut chunk = out.slice(0, ci as usize);
