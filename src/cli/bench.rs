@@ -305,7 +305,7 @@ fn whole_run(a: &BenchArgs) -> anyhow::Result<ExitCode> {
                                 &mut WordsSource::new(s.words(), (n + m - 1) as u64),
                                 &mut |c: &Bits| {
                                     // Chunks end on word boundaries but the last.
-                                    if at % 64 == 0 {
+                                    if at.is_multiple_of(64) {
                                         let w = c.words();
                                         y.words_mut()[at / 64..at / 64 + w.len()]
                                             .copy_from_slice(w);
