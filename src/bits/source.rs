@@ -70,16 +70,33 @@ pub fn read_virtual(
     if lo >= hi {
         return Ok(());
     }
-    // Source bits [a, a + k) go to out bits [lo - start, ..).
+    // Source bits [a, a + k) go to out bits [d, d + k).
     let a = (lo - shift) as u64;
     let k = (hi - lo) as usize;
-    let first = a / 64;
-    let off = (a % 64) as usize;
-    let nw = words_for(off + k);
-    tmp.clear();
-    tmp.resize(nw, 0);
-    src.read_words(first, tmp)?;
-    copy_bits(tmp, off, out, (lo - start) as usize, k);
+    let d = (lo - start) as usize;
+    if a % 64 == 0 && d % 64 == 0 {
+        // Aligned: straight into place (the source zeroes bits past its
+        // end; a partial last word is masked here).
+        let ow = &mut out[d / 64..d / 64 + words_for(k)];
+        src.read_words(a / 64, ow)?;
+        if k % 64 != 0 {
+            *ow.last_mut().expect("k > 0") &= (1u64 << (k % 64)) - 1;
+        }
+        return Ok(());
+    }
+    // Unaligned: through `tmp`, at most PIECE words at a time.
+    const PIECE: usize = 1 << 20;
+    let mut done = 0usize;
+    while done < k {
+        let take = (k - done).min(64 * (PIECE - 1));
+        let sa = a + done as u64;
+        let off = (sa % 64) as usize;
+        tmp.clear();
+        tmp.resize(words_for(off + take), 0);
+        src.read_words(sa / 64, tmp)?;
+        copy_bits(tmp, off, out, d + done, take);
+        done += take;
+    }
     Ok(())
 }
 

@@ -378,9 +378,12 @@ impl WholeRun {
                         progress(share - share / 2);
                     }
                     window.finish(&mut acc, out.words_mut());
-                    let mut chunk = out.slice(0, ci as usize);
-                    self.add_head(input, start, &mut chunk, &mut tmp)?;
-                    sink(&chunk)?;
+                    if ci < c {
+                        // The last chunk (nothing is read after it).
+                        out.truncate(ci as usize);
+                    }
+                    self.add_head(input, start, &mut out, &mut tmp)?;
+                    sink(&out)?;
                     start += ci;
                 }
             }
@@ -475,8 +478,12 @@ fn tiles_estimate(tn: u64, m: u64, b: u64, c: u64, w: &AfftWindow) -> Estimate {
     let blocks = tn.div_ceil(b);
     let bytes = |bits: u64| 8 * bits.div_ceil(64);
     // acc, the input's transform, the prepared seed; the input block, the
-    // seed segment, one read buffer as long as the segment, the chunk.
-    let memory = 24 * points + bytes(b) + 2 * bytes(b + c) + 2 * bytes(c);
+    // seed segment, the chunk, an 8 MiB read buffer and the head of a
+    // modified Toeplitz chunk (at most the chunk).
+    let memory = 24 * points
+        + bytes(b)
+        + 2 * bytes(c)
+        + bytes(b + c).saturating_mul(2).min(bytes(b + c) + (8 << 20));
     let lg = points.ilog2() as f64;
     Estimate {
         memory_bytes: memory,
