@@ -74,12 +74,12 @@ pub fn read_virtual(
     let a = (lo - shift) as u64;
     let k = (hi - lo) as usize;
     let d = (lo - start) as usize;
-    if a % 64 == 0 && d % 64 == 0 {
+    if a.is_multiple_of(64) && d.is_multiple_of(64) {
         // Aligned: straight into place (the source zeroes bits past its
         // end; a partial last word is masked here).
         let ow = &mut out[d / 64..d / 64 + words_for(k)];
         src.read_words(a / 64, ow)?;
-        if k % 64 != 0 {
+        if !k.is_multiple_of(64) {
             *ow.last_mut().expect("k > 0") &= (1u64 << (k % 64)) - 1;
         }
         return Ok(());
