@@ -23,12 +23,14 @@ impl Avx512 {
     }
 }
 
-const FFT: u8 = 0;
-const IFFT: u8 = 1;
-const FFT_T: u8 = 2;
-const IFFT_T: u8 = 3;
+/// [`Bfly`] as a const-generic parameter of the x86 kernels.
+pub(super) const FFT: u8 = 0;
+pub(super) const IFFT: u8 = 1;
+pub(super) const FFT_T: u8 = 2;
+pub(super) const IFFT_T: u8 = 3;
 
-fn kind_code(kind: Bfly) -> u8 {
+/// The code of a butterfly kind.
+pub(super) fn kind_code(kind: Bfly) -> u8 {
     match kind {
         Bfly::Fft => FFT,
         Bfly::Ifft => IFFT,

@@ -1,0 +1,340 @@
+//! PCLMULQDQ kernel on 128-bit registers: two GF(2^64) elements per
+//! register, two carry-less products per pair of PCLMULQDQ instructions.
+//! For x86-64 CPUs without VPCLMULQDQ. Same results as
+//! [`super::kernel::Portable`]; the tests compare them on random inputs.
+//!
+//! # The product
+//!
+//! With `a = (a0, a1)` and `b = (b0, b1)` in one register each, PCLMULQDQ
+//! with selectors `0x00` and `0x11` gives the 128-bit products
+//! `p_i = hi_i z^64 + lo_i`. The reduction modulo
+//! `P = z^64 + z^4 + z^3 + z + 1` is two more carry-less products by the
+//! constant `c = z^4 + z^3 + z + 1` (`z^64 = c mod P`): `hi_i` has degree at
+//! most 62, so `t_i = hi_i c` has degree at most 66; its part above `z^64`
+//! (3 bits) times `c` has degree at most 6, so
+//! `a_i b_i = lo_i + low64(t_i) + high64(t_i) c` with no further carry
+//! (the same identity as [`super::gf64::reduce`], done by PCLMULQDQ instead
+//! of shifts).
+
+use super::gf64::{self, Points};
+use super::kernel::{block_by_levels, twiddle, Bfly, Kern};
+use super::x86::{kind_code, FFT, FFT_T, IFFT, IFFT_T};
+use crate::gf2::Backend;
+use core::arch::x86_64::*;
+
+/// The PCLMULQDQ kernel. Exists only where [`Backend::Pclmul`] is
+/// supported (checked in [`Pclmul::new`]).
+#[derive(Clone, Copy, Debug)]
+pub struct Pclmul {
+    _detected: (),
+}
+
+impl Pclmul {
+    /// The kernel, if this CPU runs it.
+    pub fn new() -> Option<Pclmul> {
+        Backend::Pclmul
+            .is_supported()
+            .then_some(Pclmul { _detected: () })
+    }
+}
+
+impl Kern for Pclmul {
+    fn bfly(self, kind: Bfly, a: &mut [u64], b: &mut [u64], l: u64) {
+        assert_eq!(a.len(), b.len(), "butterfly halves differ in length");
+        // SAFETY: a Pclmul value exists only if detection succeeded (new()).
+        unsafe {
+            match kind_code(kind) {
+                FFT => bfly_slices::<FFT>(a, b, l),
+                IFFT => bfly_slices::<IFFT>(a, b, l),
+                FFT_T => bfly_slices::<FFT_T>(a, b, l),
+                _ => bfly_slices::<IFFT_T>(a, b, l),
+            }
+        }
+    }
+
+    fn mul_assign(self, acc: &mut [u64], x: &[u64]) {
+        assert_eq!(acc.len(), x.len(), "pointwise product: lengths differ");
+        // SAFETY: detected in new().
+        unsafe { mul_slices::<false>(acc, x, x) }
+    }
+
+    fn mul_acc(self, acc: &mut [u64], x: &[u64], y: &[u64]) {
+        assert!(acc.len() == x.len() && x.len() == y.len());
+        // SAFETY: detected in new().
+        unsafe { mul_slices::<true>(acc, x, y) }
+    }
+
+    fn xor_into(self, dst: &mut [u64], src: &[u64]) {
+        assert_eq!(dst.len(), src.len(), "xor: lengths differ");
+        // SAFETY: detected in new().
+        unsafe { xor_slices(dst, src) }
+    }
+
+    fn block(self, kind: Bfly, f: &mut [u64], pos: usize) {
+        let len = f.len();
+        if len < 16 {
+            return block_by_levels(self, kind, f, pos);
+        }
+        let top_down = matches!(kind, Bfly::Fft | Bfly::IfftT);
+        let levels = len.trailing_zeros();
+        let wide = |f: &mut [u64], level: u32| {
+            let h = 1usize << level;
+            for (j, blk) in f.chunks_exact_mut(2 * h).enumerate() {
+                let p = pos + 2 * h * j;
+                let (a, b) = blk.split_at_mut(h);
+                self.bfly(kind, a, b, twiddle(p, level));
+            }
+        };
+        let pts = Points::get();
+        let w = small_omegas(pts);
+        let small = |f: &mut [u64]| {
+            for (j, c) in f.chunks_exact_mut(16).enumerate() {
+                let p = pos + 16 * j;
+                let t = [
+                    pts.omega(p),
+                    pts.omega(p >> 1),
+                    pts.omega(p >> 2),
+                    pts.omega(p >> 3),
+                ];
+                // SAFETY: detected in new(); c has 16 elements.
+                unsafe {
+                    match kind_code(kind) {
+                        FFT => small16::<FFT>(c, t, &w),
+                        IFFT => small16::<IFFT>(c, t, &w),
+                        FFT_T => small16::<FFT_T>(c, t, &w),
+                        _ => small16::<IFFT_T>(c, t, &w),
+                    }
+                }
+            }
+        };
+        if top_down {
+            for level in (4..levels).rev() {
+                wide(f, level);
+            }
+            small(f);
+        } else {
+            small(f);
+            for level in 4..levels {
+                wide(f, level);
+            }
+        }
+    }
+}
+
+/// `omega_u` for `u < 16` (the offsets of twiddles inside a 16-element
+/// group: `omega_(q + u) = omega_q ^ omega_u` when `q` is a multiple of 16).
+pub(super) fn small_omegas(pts: &Points) -> [u64; 16] {
+    core::array::from_fn(|u| pts.omega(u))
+}
+
+/// The field product of one pair of elements (for the tails of slices).
+#[inline]
+#[target_feature(enable = "sse2,pclmulqdq")]
+pub(super) fn mul1(a: u64, b: u64) -> u64 {
+    // SAFETY: the features clmul64 needs are enabled here.
+    let (lo, hi) = unsafe { crate::gf2::clmul::pclmul::clmul64(a, b) };
+    gf64::reduce(lo, hi)
+}
+
+/// `a * b` lane-wise for two pairs of elements (module docs).
+#[inline]
+#[target_feature(enable = "sse2,pclmulqdq")]
+fn mul2(a: __m128i, b: __m128i) -> __m128i {
+    let c = _mm_cvtsi64_si128(gf64::P_LOW as i64);
+    let p0 = _mm_clmulepi64_si128(a, b, 0x00);
+    let p1 = _mm_clmulepi64_si128(a, b, 0x11);
+    // high64(p_i) * c, then the (at most 3) bits above z^64 of that, * c.
+    let t0 = _mm_clmulepi64_si128(p0, c, 0x01);
+    let t1 = _mm_clmulepi64_si128(p1, c, 0x01);
+    let u0 = _mm_clmulepi64_si128(t0, c, 0x01);
+    let u1 = _mm_clmulepi64_si128(t1, c, 0x01);
+    let r0 = _mm_xor_si128(p0, _mm_xor_si128(t0, u0));
+    let r1 = _mm_xor_si128(p1, _mm_xor_si128(t1, u1));
+    _mm_unpacklo_epi64(r0, r1)
+}
+
+/// One butterfly of kind `K` on registers.
+#[inline]
+#[target_feature(enable = "sse2,pclmulqdq")]
+fn bfly2<const K: u8>(a: __m128i, b: __m128i, l: __m128i) -> (__m128i, __m128i) {
+    match K {
+        FFT => {
+            let a = _mm_xor_si128(a, mul2(b, l));
+            (a, _mm_xor_si128(b, a))
+        }
+        IFFT => {
+            let b = _mm_xor_si128(b, a);
+            (_mm_xor_si128(a, mul2(b, l)), b)
+        }
+        FFT_T => {
+            let a = _mm_xor_si128(a, b);
+            (a, _mm_xor_si128(b, mul2(a, l)))
+        }
+        _ => {
+            let b = _mm_xor_si128(b, mul2(a, l));
+            (_mm_xor_si128(a, b), b)
+        }
+    }
+}
+
+/// One butterfly of kind `K` on one pair of elements (slice tails).
+#[inline]
+#[target_feature(enable = "sse2,pclmulqdq")]
+pub(super) fn bfly1_pclmul<const K: u8>(a: &mut u64, b: &mut u64, l: u64) {
+    match K {
+        FFT => {
+            *a ^= mul1(l, *b);
+            *b ^= *a;
+        }
+        IFFT => {
+            *b ^= *a;
+            *a ^= mul1(l, *b);
+        }
+        FFT_T => {
+            *a ^= *b;
+            *b ^= mul1(l, *a);
+        }
+        _ => {
+            *b ^= mul1(l, *a);
+            *a ^= *b;
+        }
+    }
+}
+
+#[target_feature(enable = "sse2,pclmulqdq")]
+fn bfly_slices<const K: u8>(a: &mut [u64], b: &mut [u64], l: u64) {
+    let n2 = a.len() / 2 * 2;
+    let lv = _mm_set1_epi64x(l as i64);
+    let (pa, pb) = (a.as_mut_ptr(), b.as_mut_ptr());
+    for i in (0..n2).step_by(2) {
+        // SAFETY: i + 2 <= n2 <= len of both slices.
+        unsafe {
+            let x = _mm_loadu_si128(pa.add(i) as *const _);
+            let y = _mm_loadu_si128(pb.add(i) as *const _);
+            let (x, y) = bfly2::<K>(x, y, lv);
+            _mm_storeu_si128(pa.add(i) as *mut _, x);
+            _mm_storeu_si128(pb.add(i) as *mut _, y);
+        }
+    }
+    for (x, y) in a[n2..].iter_mut().zip(b[n2..].iter_mut()) {
+        bfly1_pclmul::<K>(x, y, l);
+    }
+}
+
+#[target_feature(enable = "sse2,pclmulqdq")]
+fn mul_slices<const ACC: bool>(acc: &mut [u64], x: &[u64], y: &[u64]) {
+    let n2 = acc.len() / 2 * 2;
+    let pa = acc.as_mut_ptr();
+    for i in (0..n2).step_by(2) {
+        // SAFETY: i + 2 <= n2 <= every length.
+        unsafe {
+            let vx = _mm_loadu_si128(x.as_ptr().add(i) as *const _);
+            let va = _mm_loadu_si128(pa.add(i) as *const _);
+            let r = if ACC {
+                let vy = _mm_loadu_si128(y.as_ptr().add(i) as *const _);
+                _mm_xor_si128(va, mul2(vx, vy))
+            } else {
+                mul2(va, vx)
+            };
+            _mm_storeu_si128(pa.add(i) as *mut _, r);
+        }
+    }
+    for i in n2..acc.len() {
+        if ACC {
+            acc[i] ^= mul1(x[i], y[i]);
+        } else {
+            acc[i] = mul1(acc[i], x[i]);
+        }
+    }
+}
+
+#[target_feature(enable = "sse2")]
+fn xor_slices(dst: &mut [u64], src: &[u64]) {
+    let n2 = dst.len() / 2 * 2;
+    let pd = dst.as_mut_ptr();
+    for i in (0..n2).step_by(2) {
+        // SAFETY: i + 2 <= n2 <= both lengths.
+        unsafe {
+            let a = _mm_loadu_si128(pd.add(i) as *const _);
+            let b = _mm_loadu_si128(src.as_ptr().add(i) as *const _);
+            _mm_storeu_si128(pd.add(i) as *mut _, _mm_xor_si128(a, b));
+        }
+    }
+    for i in n2..dst.len() {
+        dst[i] ^= src[i];
+    }
+}
+
+/// `(x, y)` as a register, x in the low lane.
+#[inline]
+#[target_feature(enable = "sse2")]
+fn pair(x: u64, y: u64) -> __m128i {
+    _mm_set_epi64x(y as i64, x as i64)
+}
+
+/// Levels 3, 2, 1 and 0 on 16 elements at a position p (a multiple of 16),
+/// `t[L] = omega_(p >> L)`, `w[u] = omega_u`. Register `R_i` holds elements
+/// `2i, 2i + 1`. The block of level L holding element e starts at
+/// `q = p + (e & !(2^(L+1) - 1))`, so its twiddle is
+/// `omega_(q >> L) = t[L] ^ w[2 (e >> (L + 1))]`:
+///
+/// | level | pairs | twiddle |
+/// |---|---|---|
+/// | 3 | `(R_i, R_(i+4))` | `t[3]` |
+/// | 2 | `(R_i, R_(i+2))`, i = 0, 1, 4, 5 | `t[2] ^ w[2 (i / 4)]` |
+/// | 1 | `(R_(2j), R_(2j+1))` | `t[1] ^ w[2 j]` |
+/// | 0 | the lanes of `R_j`, regrouped by `unpacklo/hi` of `R_(2i)`, `R_(2i+1)` | `t[0] ^ w[2 j]` |
+#[target_feature(enable = "sse2,pclmulqdq")]
+fn small16<const K: u8>(c: &mut [u64], t: [u64; 4], w: &[u64; 16]) {
+    assert_eq!(c.len(), 16);
+    let ptr = c.as_mut_ptr();
+    let mut r = [_mm_setzero_si128(); 8];
+    for (i, v) in r.iter_mut().enumerate() {
+        // SAFETY: c has 16 elements.
+        *v = unsafe { _mm_loadu_si128(ptr.add(2 * i) as *const _) };
+    }
+    let level3 = |r: &mut [__m128i; 8]| {
+        let l = _mm_set1_epi64x(t[3] as i64);
+        for i in 0..4 {
+            (r[i], r[i + 4]) = bfly2::<K>(r[i], r[i + 4], l);
+        }
+    };
+    let level2 = |r: &mut [__m128i; 8]| {
+        for (i, g) in [(0usize, 0usize), (1, 0), (4, 1), (5, 1)] {
+            let l = _mm_set1_epi64x((t[2] ^ w[2 * g]) as i64);
+            (r[i], r[i + 2]) = bfly2::<K>(r[i], r[i + 2], l);
+        }
+    };
+    let level1 = |r: &mut [__m128i; 8]| {
+        for j in 0..4 {
+            let l = _mm_set1_epi64x((t[1] ^ w[2 * j]) as i64);
+            (r[2 * j], r[2 * j + 1]) = bfly2::<K>(r[2 * j], r[2 * j + 1], l);
+        }
+    };
+    let level0 = |r: &mut [__m128i; 8]| {
+        for i in 0..4 {
+            // Elements 4i, 4i + 2 in a; 4i + 1, 4i + 3 in b.
+            let a = _mm_unpacklo_epi64(r[2 * i], r[2 * i + 1]);
+            let b = _mm_unpackhi_epi64(r[2 * i], r[2 * i + 1]);
+            let l = pair(t[0] ^ w[4 * i], t[0] ^ w[4 * i + 2]);
+            let (a, b) = bfly2::<K>(a, b, l);
+            r[2 * i] = _mm_unpacklo_epi64(a, b);
+            r[2 * i + 1] = _mm_unpackhi_epi64(a, b);
+        }
+    };
+    if K == FFT || K == IFFT_T {
+        level3(&mut r);
+        level2(&mut r);
+        level1(&mut r);
+        level0(&mut r);
+    } else {
+        level0(&mut r);
+        level1(&mut r);
+        level2(&mut r);
+        level3(&mut r);
+    }
+    for (i, v) in r.iter().enumerate() {
+        // SAFETY: c has 16 elements.
+        unsafe { _mm_storeu_si128(ptr.add(2 * i) as *mut _, *v) };
+    }
+}
