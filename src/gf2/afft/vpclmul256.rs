@@ -6,11 +6,11 @@
 //!
 //! The product and its reduction are those of [`super::pclmul`], in each
 //! 128-bit lane: selectors `0x00` and `0x11` give the products of the even
-//! and the odd elements, two more products by `c = z^4 + z^3 + z + 1` per
-//! half reduce them modulo `P`, and `unpacklo` puts the four results back
-//! in order.
+//! and the odd elements, `unpacklo/hi` (per 128-bit lane) gather the four
+//! low and the four high halves in element order, and the reduction modulo
+//! `P` is [`super::gf64::reduce`] by shifts on all four lanes.
 
-use super::gf64::{self, Points};
+use super::gf64::Points;
 use super::kernel::{block_by_levels, twiddle, Bfly, Kern};
 use super::pclmul::{bfly1_pclmul, mul1, small_omegas};
 use super::x86::{kind_code, FFT, FFT_T, IFFT, IFFT_T};
@@ -120,16 +120,21 @@ impl Kern for Vpclmul256 {
 #[inline]
 #[target_feature(enable = "avx2,vpclmulqdq,pclmulqdq")]
 fn mul4(a: __m256i, b: __m256i) -> __m256i {
-    let c = _mm256_set_epi64x(0, gf64::P_LOW as i64, 0, gf64::P_LOW as i64);
     let p0 = _mm256_clmulepi64_epi128(a, b, 0x00);
     let p1 = _mm256_clmulepi64_epi128(a, b, 0x11);
-    let t0 = _mm256_clmulepi64_epi128(p0, c, 0x01);
-    let t1 = _mm256_clmulepi64_epi128(p1, c, 0x01);
-    let u0 = _mm256_clmulepi64_epi128(t0, c, 0x01);
-    let u1 = _mm256_clmulepi64_epi128(t1, c, 0x01);
-    let r0 = _mm256_xor_si256(p0, _mm256_xor_si256(t0, u0));
-    let r1 = _mm256_xor_si256(p1, _mm256_xor_si256(t1, u1));
-    _mm256_unpacklo_epi64(r0, r1)
+    let lo = _mm256_unpacklo_epi64(p0, p1);
+    let hi = _mm256_unpackhi_epi64(p0, p1);
+    // gf64::reduce, lane-wise.
+    let g = _mm256_xor_si256(
+        _mm256_srli_epi64(hi, 63),
+        _mm256_xor_si256(_mm256_srli_epi64(hi, 61), _mm256_srli_epi64(hi, 60)),
+    );
+    let h = _mm256_xor_si256(hi, g);
+    let r = _mm256_xor_si256(lo, _mm256_xor_si256(h, _mm256_slli_epi64(h, 1)));
+    _mm256_xor_si256(
+        r,
+        _mm256_xor_si256(_mm256_slli_epi64(h, 3), _mm256_slli_epi64(h, 4)),
+    )
 }
 
 /// One butterfly of kind `K` on registers.
