@@ -9,14 +9,19 @@
 //! with selectors `0x00` and `0x11` gives the 128-bit products
 //! `p_i = hi_i z^64 + lo_i`; `unpacklo/hi` gather `(lo_0, lo_1)` and
 //! `(hi_0, hi_1)`, and the reduction modulo `P = z^64 + z^4 + z^3 + z + 1`
-//! is that of [`super::gf64::reduce`] on both lanes at once: the product
-//! `hi c` by `c = z^4 + z^3 + z + 1` (`z^64 = c mod P`) as four shifts,
-//! with its (at most 3) bits above `z^64` folded in first.
+//! is that of [`super::gf64::reduce`] on both lanes at once, in fewer
+//! operations: `hi z^64 = hi c` with `c = z^4 + z^3 + z + 1`; the bits of
+//! `hi c` above `z^64` are `hi >> 61 ^ hi >> 60` (`gf64::reduce` also has
+//! `hi >> 63`, which is zero here: a product of two elements has degree at
+//! most 126, so `hi` has degree at most 62), and they fold in as `h = hi ^ hi >> 61 ^ hi >> 60`; then, as
+//! `c = (1 + z)(1 + z^3)` and truncation to 64 bits commutes with products,
+//! `low64(h c) = k ^ k << 3` with `k = h ^ h << 1`. Four shifts and five
+//! XORs per register.
 //!
 //! The reduction could also be done by carry-less products with `c`
 //! (`t_i = hi_i c`, of degree at most 66, then `high64(t_i) c`, of degree at
 //! most 6: two more PCLMULQDQ per element). Measured on the development
-//! machine (AMD Zen 4) in a loop of independent products, that took 1.6x
+//! machine (AMD EPYC, Zen 4) in a loop of independent products, that took 1.6x
 //! the time of the shifts with 128-bit registers and 1.5x with 256-bit ones
 //! (PCLMULQDQ is the port both compete for; shifts and XORs have more), so
 //! the kernels use shifts.
@@ -149,14 +154,14 @@ fn mul2(a: __m128i, b: __m128i) -> __m128i {
     let p1 = _mm_clmulepi64_si128(a, b, 0x11);
     let lo = _mm_unpacklo_epi64(p0, p1);
     let hi = _mm_unpackhi_epi64(p0, p1);
-    // gf64::reduce, lane-wise.
-    let g = _mm_xor_si128(
-        _mm_srli_epi64(hi, 63),
+    // Module docs: h = hi + the bits of hi c above z^64; k = (1 + z) h;
+    // r = lo + (1 + z^3) k.
+    let h = _mm_xor_si128(
+        hi,
         _mm_xor_si128(_mm_srli_epi64(hi, 61), _mm_srli_epi64(hi, 60)),
     );
-    let h = _mm_xor_si128(hi, g);
-    let r = _mm_xor_si128(lo, _mm_xor_si128(h, _mm_slli_epi64(h, 1)));
-    _mm_xor_si128(r, _mm_xor_si128(_mm_slli_epi64(h, 3), _mm_slli_epi64(h, 4)))
+    let k = _mm_xor_si128(h, _mm_slli_epi64(h, 1));
+    _mm_xor_si128(lo, _mm_xor_si128(k, _mm_slli_epi64(k, 3)))
 }
 
 /// One butterfly of kind `K` on registers.

@@ -8,7 +8,7 @@
 //! 128-bit lane: selectors `0x00` and `0x11` give the products of the even
 //! and the odd elements, `unpacklo/hi` (per 128-bit lane) gather the four
 //! low and the four high halves in element order, and the reduction modulo
-//! `P` is [`super::gf64::reduce`] by shifts on all four lanes.
+//! `P` is the one by shifts of [`super::pclmul`] on all four lanes.
 
 use super::gf64::Points;
 use super::kernel::{block_by_levels, twiddle, Bfly, Kern};
@@ -124,17 +124,13 @@ fn mul4(a: __m256i, b: __m256i) -> __m256i {
     let p1 = _mm256_clmulepi64_epi128(a, b, 0x11);
     let lo = _mm256_unpacklo_epi64(p0, p1);
     let hi = _mm256_unpackhi_epi64(p0, p1);
-    // gf64::reduce, lane-wise.
-    let g = _mm256_xor_si256(
-        _mm256_srli_epi64(hi, 63),
+    // The reduction of super::pclmul (module docs there), lane-wise.
+    let h = _mm256_xor_si256(
+        hi,
         _mm256_xor_si256(_mm256_srli_epi64(hi, 61), _mm256_srli_epi64(hi, 60)),
     );
-    let h = _mm256_xor_si256(hi, g);
-    let r = _mm256_xor_si256(lo, _mm256_xor_si256(h, _mm256_slli_epi64(h, 1)));
-    _mm256_xor_si256(
-        r,
-        _mm256_xor_si256(_mm256_slli_epi64(h, 3), _mm256_slli_epi64(h, 4)),
-    )
+    let k = _mm256_xor_si256(h, _mm256_slli_epi64(h, 1));
+    _mm256_xor_si256(lo, _mm256_xor_si256(k, _mm256_slli_epi64(k, 3)))
 }
 
 /// One butterfly of kind `K` on registers.

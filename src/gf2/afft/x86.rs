@@ -130,15 +130,10 @@ fn mul8(a: __m512i, l: __m512i) -> __m512i {
     let p1 = _mm512_clmulepi64_epi128(a, l, 0x11);
     let lo = _mm512_unpacklo_epi64(p0, p1);
     let hi = _mm512_unpackhi_epi64(p0, p1);
-    // The reduction of gf64::reduce, lane-wise.
-    let g = xor3(
-        _mm512_srli_epi64(hi, 63),
-        _mm512_srli_epi64(hi, 61),
-        _mm512_srli_epi64(hi, 60),
-    );
-    let h = _mm512_xor_si512(hi, g);
-    let r = xor3(lo, h, _mm512_slli_epi64(h, 1));
-    xor3(r, _mm512_slli_epi64(h, 3), _mm512_slli_epi64(h, 4))
+    // The reduction of super::pclmul (module docs there), lane-wise.
+    let h = xor3(hi, _mm512_srli_epi64(hi, 61), _mm512_srli_epi64(hi, 60));
+    let k = _mm512_xor_si512(h, _mm512_slli_epi64(h, 1));
+    xor3(lo, k, _mm512_slli_epi64(k, 3))
 }
 
 /// One butterfly of kind `K` on registers.
