@@ -95,26 +95,13 @@ impl Kern for Pclmul {
                 self.bfly(kind, a, b, twiddle(p, level));
             }
         };
-        let pts = Points::get();
-        let w = small_omegas(pts);
-        let small = |f: &mut [u64]| {
-            for (j, c) in f.chunks_exact_mut(16).enumerate() {
-                let p = pos + 16 * j;
-                let t = [
-                    pts.omega(p),
-                    pts.omega(p >> 1),
-                    pts.omega(p >> 2),
-                    pts.omega(p >> 3),
-                ];
-                // SAFETY: detected in new(); c has 16 elements.
-                unsafe {
-                    match kind_code(kind) {
-                        FFT => small16::<FFT>(c, t, &w),
-                        IFFT => small16::<IFFT>(c, t, &w),
-                        FFT_T => small16::<FFT_T>(c, t, &w),
-                        _ => small16::<IFFT_T>(c, t, &w),
-                    }
-                }
+        // SAFETY (both calls below): detected in new().
+        let small = |f: &mut [u64]| unsafe {
+            match kind_code(kind) {
+                FFT => small_groups::<FFT>(f, pos),
+                IFFT => small_groups::<IFFT>(f, pos),
+                FFT_T => small_groups::<FFT_T>(f, pos),
+                _ => small_groups::<IFFT_T>(f, pos),
             }
         };
         if top_down {
@@ -276,6 +263,26 @@ fn xor_slices(dst: &mut [u64], src: &[u64]) {
     }
 }
 
+/// The 16-element groups of `f` (at global position `pos`, a multiple of
+/// 16) through [`small16`], with the twiddle offsets built once.
+#[target_feature(enable = "sse2,pclmulqdq")]
+fn small_groups<const K: u8>(f: &mut [u64], pos: usize) {
+    let pts = Points::get();
+    let w = small_omegas(pts);
+    // Level 0's lane offsets (w[4i], w[4i + 2]) (see small16).
+    let w0: [__m128i; 4] = core::array::from_fn(|i| pair(w[4 * i], w[4 * i + 2]));
+    for (j, c) in f.chunks_exact_mut(16).enumerate() {
+        let p = pos + 16 * j;
+        let t = [
+            pts.omega(p),
+            pts.omega(p >> 1),
+            pts.omega(p >> 2),
+            pts.omega(p >> 3),
+        ];
+        small16::<K>(c, t, &w, &w0);
+    }
+}
+
 /// `(x, y)` as a register, x in the low lane.
 #[inline]
 #[target_feature(enable = "sse2")]
@@ -284,8 +291,8 @@ fn pair(x: u64, y: u64) -> __m128i {
 }
 
 /// Levels 3, 2, 1 and 0 on 16 elements at a position p (a multiple of 16),
-/// `t[L] = omega_(p >> L)`, `w[u] = omega_u`. Register `R_i` holds elements
-/// `2i, 2i + 1`. The block of level L holding element e starts at
+/// `t[L] = omega_(p >> L)`, `w[u] = omega_u`, `w0[i] = (w[4i], w[4i + 2])`.
+/// Register `R_i` holds elements `2i, 2i + 1`. The block of level L holding element e starts at
 /// `q = p + (e & !(2^(L+1) - 1))`, so its twiddle is
 /// `omega_(q >> L) = t[L] ^ w[2 (e >> (L + 1))]`:
 ///
@@ -295,8 +302,9 @@ fn pair(x: u64, y: u64) -> __m128i {
 /// | 2 | `(R_i, R_(i+2))`, i = 0, 1, 4, 5 | `t[2] ^ w[2 (i / 4)]` |
 /// | 1 | `(R_(2j), R_(2j+1))` | `t[1] ^ w[2 j]` |
 /// | 0 | the lanes of `R_j`, regrouped by `unpacklo/hi` of `R_(2i)`, `R_(2i+1)` | `t[0] ^ w[2 j]` |
+#[inline]
 #[target_feature(enable = "sse2,pclmulqdq")]
-fn small16<const K: u8>(c: &mut [u64], t: [u64; 4], w: &[u64; 16]) {
+fn small16<const K: u8>(c: &mut [u64], t: [u64; 4], w: &[u64; 16], w0: &[__m128i; 4]) {
     assert_eq!(c.len(), 16);
     let ptr = c.as_mut_ptr();
     let mut r = [_mm_setzero_si128(); 8];
@@ -323,11 +331,12 @@ fn small16<const K: u8>(c: &mut [u64], t: [u64; 4], w: &[u64; 16]) {
         }
     };
     let level0 = |r: &mut [__m128i; 8]| {
+        let t0 = _mm_set1_epi64x(t[0] as i64);
         for i in 0..4 {
             // Elements 4i, 4i + 2 in a; 4i + 1, 4i + 3 in b.
             let a = _mm_unpacklo_epi64(r[2 * i], r[2 * i + 1]);
             let b = _mm_unpackhi_epi64(r[2 * i], r[2 * i + 1]);
-            let l = pair(t[0] ^ w[4 * i], t[0] ^ w[4 * i + 2]);
+            let l = _mm_xor_si128(t0, w0[i]);
             let (a, b) = bfly2::<K>(a, b, l);
             r[2 * i] = _mm_unpacklo_epi64(a, b);
             r[2 * i + 1] = _mm_unpackhi_epi64(a, b);

@@ -80,26 +80,13 @@ impl Kern for Vpclmul256 {
                 self.bfly(kind, a, b, twiddle(p, level));
             }
         };
-        let pts = Points::get();
-        let w = small_omegas(pts);
-        let small = |f: &mut [u64]| {
-            for (j, c) in f.chunks_exact_mut(16).enumerate() {
-                let p = pos + 16 * j;
-                let t = [
-                    pts.omega(p),
-                    pts.omega(p >> 1),
-                    pts.omega(p >> 2),
-                    pts.omega(p >> 3),
-                ];
-                // SAFETY: detected in new(); c has 16 elements.
-                unsafe {
-                    match kind_code(kind) {
-                        FFT => small16::<FFT>(c, t, &w),
-                        IFFT => small16::<IFFT>(c, t, &w),
-                        FFT_T => small16::<FFT_T>(c, t, &w),
-                        _ => small16::<IFFT_T>(c, t, &w),
-                    }
-                }
+        // SAFETY (both calls below): detected in new().
+        let small = |f: &mut [u64]| unsafe {
+            match kind_code(kind) {
+                FFT => small_groups::<FFT>(f, pos),
+                IFFT => small_groups::<IFFT>(f, pos),
+                FFT_T => small_groups::<FFT_T>(f, pos),
+                _ => small_groups::<IFFT_T>(f, pos),
             }
         };
         if top_down {
@@ -221,6 +208,36 @@ fn xor_slices(dst: &mut [u64], src: &[u64]) {
     }
 }
 
+/// The twiddle offsets of levels 1 and 0 of [`small16`], by lane.
+struct Offsets {
+    /// `(w[4i], w[4i], w[4i + 2], w[4i + 2])`.
+    l1: [__m256i; 2],
+    /// `(w[8i], w[8i + 4], w[8i + 2], w[8i + 6])`.
+    l0: [__m256i; 2],
+}
+
+/// The 16-element groups of `f` (at global position `pos`, a multiple of
+/// 16) through [`small16`], with the twiddle offsets built once.
+#[target_feature(enable = "avx2,vpclmulqdq,pclmulqdq")]
+fn small_groups<const K: u8>(f: &mut [u64], pos: usize) {
+    let pts = Points::get();
+    let w = small_omegas(pts);
+    let off = Offsets {
+        l1: core::array::from_fn(|i| quad([w[4 * i], w[4 * i], w[4 * i + 2], w[4 * i + 2]])),
+        l0: core::array::from_fn(|i| quad([w[8 * i], w[8 * i + 4], w[8 * i + 2], w[8 * i + 6]])),
+    };
+    for (j, c) in f.chunks_exact_mut(16).enumerate() {
+        let p = pos + 16 * j;
+        let t = [
+            pts.omega(p),
+            pts.omega(p >> 1),
+            pts.omega(p >> 2),
+            pts.omega(p >> 3),
+        ];
+        small16::<K>(c, t, &w, &off);
+    }
+}
+
 /// `(x0, x1, x2, x3)` as a register, x0 in the lowest lane.
 #[inline]
 #[target_feature(enable = "avx2")]
@@ -239,8 +256,9 @@ fn quad(x: [u64; 4]) -> __m256i {
 /// | 2 | `(R_0, R_1)`, `(R_2, R_3)` | all in one block |
 /// | 1 | 128-bit halves of `R_(2i)`, `R_(2i+1)` (`permute2x128`) | `4i, 4i+1, 4i+4, 4i+5` |
 /// | 0 | qwords of `R_(2i)`, `R_(2i+1)` (`unpacklo/hi`) | `8i, 8i+4, 8i+2, 8i+6` |
+#[inline]
 #[target_feature(enable = "avx2,vpclmulqdq,pclmulqdq")]
-fn small16<const K: u8>(c: &mut [u64], t: [u64; 4], w: &[u64; 16]) {
+fn small16<const K: u8>(c: &mut [u64], t: [u64; 4], w: &[u64; 16], off: &Offsets) {
     assert_eq!(c.len(), 16);
     let ptr = c.as_mut_ptr();
     let mut r = [_mm256_setzero_si256(); 4];
@@ -265,8 +283,8 @@ fn small16<const K: u8>(c: &mut [u64], t: [u64; 4], w: &[u64; 16]) {
             // a: elements 8i, 8i+1, 8i+4, 8i+5 (blocks 2i, 2i+1).
             let a = _mm256_permute2x128_si256(r[2 * i], r[2 * i + 1], 0x20);
             let b = _mm256_permute2x128_si256(r[2 * i], r[2 * i + 1], 0x31);
-            let (l0, l1) = (t[1] ^ w[4 * i], t[1] ^ w[4 * i + 2]);
-            let (a, b) = bfly4::<K>(a, b, quad([l0, l0, l1, l1]));
+            let l = _mm256_xor_si256(_mm256_set1_epi64x(t[1] as i64), off.l1[i]);
+            let (a, b) = bfly4::<K>(a, b, l);
             r[2 * i] = _mm256_permute2x128_si256(a, b, 0x20);
             r[2 * i + 1] = _mm256_permute2x128_si256(a, b, 0x31);
         }
@@ -276,12 +294,7 @@ fn small16<const K: u8>(c: &mut [u64], t: [u64; 4], w: &[u64; 16]) {
             // a: elements 8i, 8i+4 | 8i+2, 8i+6 (blocks 4i, 4i+2, 4i+1, 4i+3).
             let a = _mm256_unpacklo_epi64(r[2 * i], r[2 * i + 1]);
             let b = _mm256_unpackhi_epi64(r[2 * i], r[2 * i + 1]);
-            let l = quad([
-                t[0] ^ w[8 * i],
-                t[0] ^ w[8 * i + 4],
-                t[0] ^ w[8 * i + 2],
-                t[0] ^ w[8 * i + 6],
-            ]);
+            let l = _mm256_xor_si256(_mm256_set1_epi64x(t[0] as i64), off.l0[i]);
             let (a, b) = bfly4::<K>(a, b, l);
             r[2 * i] = _mm256_unpacklo_epi64(a, b);
             r[2 * i + 1] = _mm256_unpackhi_epi64(a, b);
