@@ -89,15 +89,88 @@ impl Kern for Vpclmul256 {
                 _ => small_groups::<IFFT_T>(f, pos),
             }
         };
+        // Levels `level` and `level - 1` in one pass over f.
+        let two = |f: &mut [u64], level: u32| {
+            let q = 1usize << (level - 1);
+            for (j, blk) in f.chunks_exact_mut(4 * q).enumerate() {
+                let p = pos + 4 * q * j;
+                let t = [
+                    twiddle(p, level),
+                    twiddle(p, level - 1),
+                    twiddle(p + 2 * q, level - 1),
+                ];
+                // SAFETY: detected in new(); blk has 4q elements, q >= 16.
+                unsafe {
+                    match kind_code(kind) {
+                        FFT => bfly_two::<FFT>(blk, t),
+                        IFFT => bfly_two::<IFFT>(blk, t),
+                        FFT_T => bfly_two::<FFT_T>(blk, t),
+                        _ => bfly_two::<IFFT_T>(blk, t),
+                    }
+                }
+            }
+        };
         if top_down {
-            for level in (4..levels).rev() {
-                wide(f, level);
+            let mut level = levels;
+            while level >= 6 {
+                two(f, level - 1);
+                level -= 2;
+            }
+            if level == 5 {
+                wide(f, 4);
             }
             small(f);
         } else {
             small(f);
-            for level in 4..levels {
+            let mut level = 4;
+            while level + 1 < levels {
+                two(f, level + 1);
+                level += 2;
+            }
+            if level < levels {
                 wide(f, level);
+            }
+        }
+    }
+}
+
+/// Levels `L` and `L - 1` of kind `K` on a block of `4q` elements
+/// (`q = 2^(L-1)`, a multiple of 4): quarters `Q_0 .. Q_3`, level L pairs
+/// `(Q_0, Q_2)` and `(Q_1, Q_3)` with twiddle `t[0]`, level L - 1 pairs
+/// `(Q_0, Q_1)` with `t[1]` and `(Q_2, Q_3)` with `t[2]`; top-down for
+/// `Fft`/`IfftT`, bottom-up otherwise. One load and one store per element
+/// for two levels.
+#[target_feature(enable = "avx2,vpclmulqdq,pclmulqdq")]
+fn bfly_two<const K: u8>(blk: &mut [u64], t: [u64; 3]) {
+    let q = blk.len() / 4;
+    assert!(blk.len() == 4 * q && q.is_multiple_of(4));
+    let lt = _mm256_set1_epi64x(t[0] as i64);
+    let la = _mm256_set1_epi64x(t[1] as i64);
+    let lb = _mm256_set1_epi64x(t[2] as i64);
+    let ptr = blk.as_mut_ptr();
+    for i in (0..q).step_by(4) {
+        // SAFETY: i + 4 <= q, so every access is inside blk.
+        unsafe {
+            let p = [
+                ptr.add(i),
+                ptr.add(q + i),
+                ptr.add(2 * q + i),
+                ptr.add(3 * q + i),
+            ];
+            let mut x = p.map(|a| _mm256_loadu_si256(a as *const _));
+            if K == FFT || K == IFFT_T {
+                (x[0], x[2]) = bfly4::<K>(x[0], x[2], lt);
+                (x[1], x[3]) = bfly4::<K>(x[1], x[3], lt);
+                (x[0], x[1]) = bfly4::<K>(x[0], x[1], la);
+                (x[2], x[3]) = bfly4::<K>(x[2], x[3], lb);
+            } else {
+                (x[0], x[1]) = bfly4::<K>(x[0], x[1], la);
+                (x[2], x[3]) = bfly4::<K>(x[2], x[3], lb);
+                (x[0], x[2]) = bfly4::<K>(x[0], x[2], lt);
+                (x[1], x[3]) = bfly4::<K>(x[1], x[3], lt);
+            }
+            for (a, v) in p.into_iter().zip(x) {
+                _mm256_storeu_si256(a as *mut _, v);
             }
         }
     }
