@@ -4,7 +4,8 @@
 
 use proptest::prelude::*;
 use sluice::bits::Bits;
-use sluice::extract::{reference, Engine, Extractor, ModifiedToeplitz, Toeplitz};
+use sluice::extract::{reference, Engine, Extractor, ModifiedToeplitz, Thresholds, Toeplitz};
+use sluice::gf2::Backend;
 
 fn bits_from(seed: u64, n: usize) -> Bits {
     // splitmix64 stream (common practice for test data)
@@ -198,5 +199,106 @@ fn exhaustive_universality_small() {
             assert_eq!(worst, 1 << (d - m), "modified n={n} m={m}");
             assert_eq!(best, 0, "modified n={n} m={m}: u_tail = 0 never collides");
         }
+    }
+}
+
+/// Thresholds for `Engine::Auto`, lowered so that sizes up to ~2^18 reach
+/// the additive FFT, and not powers of two. Installed once for this test
+/// process (installation is once per process; no other test here uses
+/// `Auto` at these sizes).
+const AUTO_TEST: Thresholds = Thresholds {
+    input_bits: (1 << 17) + 12_345,
+    output_bits: 3_001,
+};
+
+fn install_auto_test_thresholds() {
+    Thresholds::install(AUTO_TEST);
+    assert_eq!(
+        Thresholds::current(),
+        AUTO_TEST,
+        "other thresholds installed"
+    );
+}
+
+/// `Engine::Auto` gives the bits of the Karatsuba engine for Toeplitz and
+/// modified Toeplitz hashing, and picks the engine its thresholds say;
+/// returns the engine Toeplitz hashing resolved to.
+fn check_auto(n: usize, m: usize, seed: u64) -> Engine {
+    install_auto_test_thresholds();
+    let kara = Engine::Clmul(Backend::detect());
+    let x = bits_from(seed, n);
+    let s = bits_from(seed ^ 0xabcdef, n + m - 1);
+    let auto = Toeplitz::with_engine(n, m, Engine::Auto).unwrap();
+    let want_additive = n >= AUTO_TEST.input_bits && m >= AUTO_TEST.output_bits;
+    assert_eq!(
+        matches!(auto.engine(), Engine::Additive(_)),
+        want_additive,
+        "toeplitz n={n} m={m}: auto chose {}",
+        auto.engine()
+    );
+    let (mut y, mut want) = (Bits::zeros(m), Bits::zeros(m));
+    auto.extract(&x, &s, &mut y);
+    Toeplitz::with_engine(n, m, kara)
+        .unwrap()
+        .extract(&x, &s, &mut want);
+    assert_eq!(y, want, "toeplitz auto ({}) n={n} m={m}", auto.engine());
+    if m < n {
+        // The modified family hashes the last n - m bits with an m x (n - m)
+        // Toeplitz matrix, so Auto decides on (n - m, m).
+        let s = bits_from(seed ^ 0x5eed, n - 1);
+        let auto_m = ModifiedToeplitz::with_engine(n, m, Engine::Auto).unwrap();
+        let (mut y, mut want) = (Bits::zeros(m), Bits::zeros(m));
+        auto_m.extract(&x, &s, &mut y);
+        ModifiedToeplitz::with_engine(n, m, kara)
+            .unwrap()
+            .extract(&x, &s, &mut want);
+        assert_eq!(y, want, "modified auto ({}) n={n} m={m}", auto_m.engine());
+    }
+    auto.engine()
+}
+
+#[test]
+fn auto_engine_at_its_thresholds() {
+    // Every side of both thresholds, m = 1 and m = n; both engines are hit.
+    let (tn, tm) = (AUTO_TEST.input_bits, AUTO_TEST.output_bits);
+    let mut seen = (false, false);
+    for n in [tn - 1, tn, tn + 1, tn + 64 * 37 + 5] {
+        for m in [1, tm - 1, tm, tm + 1, n / 2 + 3, n - 1, n] {
+            let e = check_auto(n, m, (n ^ (m << 20)) as u64);
+            match e {
+                Engine::Additive(_) => seen.0 = true,
+                _ => seen.1 = true,
+            }
+        }
+    }
+    assert!(seen.0 && seen.1, "both engines must be reached: {seen:?}");
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(24))]
+    #[test]
+    fn auto_engine_matches_karatsuba_around_its_thresholds(
+        near in any::<bool>(),
+        dn in -3000i64..3000,
+        wide_n in 1usize..(1 << 18),
+        m_kind in 0usize..4,
+        dm in -400i64..400,
+        frac in 0.0f64..=1.0,
+        seed in any::<u64>(),
+    ) {
+        // n near the input threshold, or anywhere up to 2^18; m = 1, m = n,
+        // near the output threshold, or any fraction of n.
+        let n = if near {
+            (AUTO_TEST.input_bits as i64 + dn) as usize
+        } else {
+            wide_n
+        };
+        let m = match m_kind {
+            0 => 1,
+            1 => n,
+            2 => ((AUTO_TEST.output_bits as i64 + dm) as usize).clamp(1, n),
+            _ => ((n as f64 * frac) as usize).clamp(1, n),
+        };
+        check_auto(n, m, seed);
     }
 }

@@ -61,9 +61,15 @@ pub mod gf64;
 pub mod kernel;
 pub mod memory;
 pub mod passes;
+#[cfg(target_arch = "x86_64")]
+mod pclmul;
 pub mod transform;
 #[cfg(target_arch = "x86_64")]
+mod vpclmul256;
+#[cfg(target_arch = "x86_64")]
 mod x86;
+#[cfg(all(test, target_arch = "x86_64"))]
+mod x86_tests;
 
 use crate::bits::words_for;
 use crate::gf2::Backend;
@@ -408,6 +414,12 @@ impl AfftWindow {
 pub enum AnyKern {
     /// [`kernel::Portable`].
     Portable,
+    /// PCLMULQDQ on 128-bit registers.
+    #[cfg(target_arch = "x86_64")]
+    Pclmul(pclmul::Pclmul),
+    /// AVX2 with VPCLMULQDQ on 256-bit registers.
+    #[cfg(target_arch = "x86_64")]
+    Vpclmul256(vpclmul256::Vpclmul256),
     /// AVX-512 with VPCLMULQDQ.
     #[cfg(target_arch = "x86_64")]
     Avx512(x86::Avx512),
@@ -419,6 +431,12 @@ impl AnyKern {
         match backend {
             #[cfg(target_arch = "x86_64")]
             Backend::Vpclmul => AnyKern::Avx512(x86::Avx512::new().expect("detected")),
+            #[cfg(target_arch = "x86_64")]
+            Backend::Vpclmul256 => {
+                AnyKern::Vpclmul256(vpclmul256::Vpclmul256::new().expect("detected"))
+            }
+            #[cfg(target_arch = "x86_64")]
+            Backend::Pclmul => AnyKern::Pclmul(pclmul::Pclmul::new().expect("detected")),
             _ => AnyKern::Portable,
         }
     }
@@ -430,6 +448,10 @@ impl Kern for AnyKern {
         match self {
             AnyKern::Portable => Portable.bfly(kind, a, b, l),
             #[cfg(target_arch = "x86_64")]
+            AnyKern::Pclmul(k) => k.bfly(kind, a, b, l),
+            #[cfg(target_arch = "x86_64")]
+            AnyKern::Vpclmul256(k) => k.bfly(kind, a, b, l),
+            #[cfg(target_arch = "x86_64")]
             AnyKern::Avx512(k) => k.bfly(kind, a, b, l),
         }
     }
@@ -437,6 +459,10 @@ impl Kern for AnyKern {
     fn mul_assign(self, acc: &mut [u64], x: &[u64]) {
         match self {
             AnyKern::Portable => Portable.mul_assign(acc, x),
+            #[cfg(target_arch = "x86_64")]
+            AnyKern::Pclmul(k) => k.mul_assign(acc, x),
+            #[cfg(target_arch = "x86_64")]
+            AnyKern::Vpclmul256(k) => k.mul_assign(acc, x),
             #[cfg(target_arch = "x86_64")]
             AnyKern::Avx512(k) => k.mul_assign(acc, x),
         }
@@ -446,6 +472,10 @@ impl Kern for AnyKern {
         match self {
             AnyKern::Portable => Portable.mul_acc(acc, x, y),
             #[cfg(target_arch = "x86_64")]
+            AnyKern::Pclmul(k) => k.mul_acc(acc, x, y),
+            #[cfg(target_arch = "x86_64")]
+            AnyKern::Vpclmul256(k) => k.mul_acc(acc, x, y),
+            #[cfg(target_arch = "x86_64")]
             AnyKern::Avx512(k) => k.mul_acc(acc, x, y),
         }
     }
@@ -454,6 +484,10 @@ impl Kern for AnyKern {
         match self {
             AnyKern::Portable => Portable.xor_into(dst, src),
             #[cfg(target_arch = "x86_64")]
+            AnyKern::Pclmul(k) => k.xor_into(dst, src),
+            #[cfg(target_arch = "x86_64")]
+            AnyKern::Vpclmul256(k) => k.xor_into(dst, src),
+            #[cfg(target_arch = "x86_64")]
             AnyKern::Avx512(k) => k.xor_into(dst, src),
         }
     }
@@ -461,6 +495,10 @@ impl Kern for AnyKern {
     fn block(self, kind: kernel::Bfly, f: &mut [u64], pos: usize) {
         match self {
             AnyKern::Portable => Portable.block(kind, f, pos),
+            #[cfg(target_arch = "x86_64")]
+            AnyKern::Pclmul(k) => k.block(kind, f, pos),
+            #[cfg(target_arch = "x86_64")]
+            AnyKern::Vpclmul256(k) => k.block(kind, f, pos),
             #[cfg(target_arch = "x86_64")]
             AnyKern::Avx512(k) => k.block(kind, f, pos),
         }

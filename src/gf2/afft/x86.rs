@@ -3,7 +3,7 @@
 //! tests compare them.
 
 use super::gf64::Points;
-use super::kernel::{bfly1, block_by_levels, Bfly, Kern};
+use super::kernel::{bfly1, block_by_levels, twiddle, Bfly, Kern};
 use crate::gf2::Backend;
 use core::arch::x86_64::*;
 
@@ -23,12 +23,14 @@ impl Avx512 {
     }
 }
 
-const FFT: u8 = 0;
-const IFFT: u8 = 1;
-const FFT_T: u8 = 2;
-const IFFT_T: u8 = 3;
+/// [`Bfly`] as a const-generic parameter of the x86 kernels.
+pub(super) const FFT: u8 = 0;
+pub(super) const IFFT: u8 = 1;
+pub(super) const FFT_T: u8 = 2;
+pub(super) const IFFT_T: u8 = 3;
 
-fn kind_code(kind: Bfly) -> u8 {
+/// The code of a butterfly kind.
+pub(super) fn kind_code(kind: Bfly) -> u8 {
     match kind {
         Bfly::Fft => FFT,
         Bfly::Ifft => IFFT,
@@ -81,7 +83,7 @@ impl Kern for Avx512 {
             for (j, blk) in f.chunks_exact_mut(2 * h).enumerate() {
                 let p = pos + 2 * h * j;
                 let (a, b) = blk.split_at_mut(h);
-                self.bfly(kind, a, b, super::kernel::twiddle(p, level));
+                self.bfly(kind, a, b, twiddle(p, level));
             }
         };
         let pts = Points::get();
@@ -100,15 +102,88 @@ impl Kern for Avx512 {
                 }
             }
         };
+        // Levels `level` and `level - 1` in one pass over f.
+        let two = |f: &mut [u64], level: u32| {
+            let q = 1usize << (level - 1);
+            for (j, blk) in f.chunks_exact_mut(4 * q).enumerate() {
+                let p = pos + 4 * q * j;
+                let t = [
+                    twiddle(p, level),
+                    twiddle(p, level - 1),
+                    twiddle(p + 2 * q, level - 1),
+                ];
+                // SAFETY: detected in new(); blk has 4q elements, q >= 8.
+                unsafe {
+                    match kind_code(kind) {
+                        FFT => bfly_two::<FFT>(blk, t),
+                        IFFT => bfly_two::<IFFT>(blk, t),
+                        FFT_T => bfly_two::<FFT_T>(blk, t),
+                        _ => bfly_two::<IFFT_T>(blk, t),
+                    }
+                }
+            }
+        };
         if top_down {
-            for level in (3..levels).rev() {
-                wide(f, level);
+            let mut level = levels;
+            while level >= 5 {
+                two(f, level - 1);
+                level -= 2;
+            }
+            if level == 4 {
+                wide(f, 3);
             }
             small(f);
         } else {
             small(f);
-            for level in 3..levels {
+            let mut level = 3;
+            while level + 1 < levels {
+                two(f, level + 1);
+                level += 2;
+            }
+            if level < levels {
                 wide(f, level);
+            }
+        }
+    }
+}
+
+/// Levels `L` and `L - 1` of kind `K` on a block of `4q` elements
+/// (`q = 2^(L-1)`, a multiple of 8): quarters `Q_0 .. Q_3`, level L pairs
+/// `(Q_0, Q_2)` and `(Q_1, Q_3)` with twiddle `t[0]`, level L - 1 pairs
+/// `(Q_0, Q_1)` with `t[1]` and `(Q_2, Q_3)` with `t[2]`; top-down for
+/// `Fft`/`IfftT`, bottom-up otherwise. One load and one store per element
+/// for two levels.
+#[target_feature(enable = "avx512f,vpclmulqdq")]
+fn bfly_two<const K: u8>(blk: &mut [u64], t: [u64; 3]) {
+    let q = blk.len() / 4;
+    assert!(blk.len() == 4 * q && q.is_multiple_of(8));
+    let lt = _mm512_set1_epi64(t[0] as i64);
+    let la = _mm512_set1_epi64(t[1] as i64);
+    let lb = _mm512_set1_epi64(t[2] as i64);
+    let ptr = blk.as_mut_ptr();
+    for i in (0..q).step_by(8) {
+        // SAFETY: i + 8 <= q, so every access is inside blk.
+        unsafe {
+            let p = [
+                ptr.add(i),
+                ptr.add(q + i),
+                ptr.add(2 * q + i),
+                ptr.add(3 * q + i),
+            ];
+            let mut x = p.map(|a| _mm512_loadu_si512(a as *const _));
+            if K == FFT || K == IFFT_T {
+                (x[0], x[2]) = bfly8::<K>(x[0], x[2], lt);
+                (x[1], x[3]) = bfly8::<K>(x[1], x[3], lt);
+                (x[0], x[1]) = bfly8::<K>(x[0], x[1], la);
+                (x[2], x[3]) = bfly8::<K>(x[2], x[3], lb);
+            } else {
+                (x[0], x[1]) = bfly8::<K>(x[0], x[1], la);
+                (x[2], x[3]) = bfly8::<K>(x[2], x[3], lb);
+                (x[0], x[2]) = bfly8::<K>(x[0], x[2], lt);
+                (x[1], x[3]) = bfly8::<K>(x[1], x[3], lt);
+            }
+            for (a, v) in p.into_iter().zip(x) {
+                _mm512_storeu_si512(a as *mut _, v);
             }
         }
     }
@@ -128,15 +203,10 @@ fn mul8(a: __m512i, l: __m512i) -> __m512i {
     let p1 = _mm512_clmulepi64_epi128(a, l, 0x11);
     let lo = _mm512_unpacklo_epi64(p0, p1);
     let hi = _mm512_unpackhi_epi64(p0, p1);
-    // The reduction of gf64::reduce, lane-wise.
-    let g = xor3(
-        _mm512_srli_epi64(hi, 63),
-        _mm512_srli_epi64(hi, 61),
-        _mm512_srli_epi64(hi, 60),
-    );
-    let h = _mm512_xor_si512(hi, g);
-    let r = xor3(lo, h, _mm512_slli_epi64(h, 1));
-    xor3(r, _mm512_slli_epi64(h, 3), _mm512_slli_epi64(h, 4))
+    // The reduction of super::pclmul (module docs there), lane-wise.
+    let h = xor3(hi, _mm512_srli_epi64(hi, 61), _mm512_srli_epi64(hi, 60));
+    let k = _mm512_xor_si512(h, _mm512_slli_epi64(h, 1));
+    xor3(lo, k, _mm512_slli_epi64(k, 3))
 }
 
 /// One butterfly of kind `K` on registers.
