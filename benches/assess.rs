@@ -3,7 +3,7 @@
 //! target is 10^8 bits = 100 sequences of 10^6 in at most 60 s, run in
 //! parallel over sequences), the SP 800-90B health tests (at least
 //! 1 Gbit/s) and the estimators on 10^6 samples (at most 10 s).
-//! Inputs are seeded pseudo-random bits (xorshift64, seeds below).
+//! Inputs are seeded pseudo-random bits (the crate's one test generator, seeds below).
 
 use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion, Throughput};
 use rayon::prelude::*;
@@ -13,16 +13,8 @@ use sluice::bits::Bits;
 use std::time::Duration;
 
 fn pseudo_random_bits(n: usize, seed: u64) -> Bits {
-    let mut s = seed;
-    let words = (0..n.div_ceil(64))
-        .map(|_| {
-            s ^= s << 13;
-            s ^= s >> 7;
-            s ^= s << 17;
-            s
-        })
-        .collect();
-    Bits::from_words(words, n)
+    // The crate's one test generator.
+    sluice::bits::pseudo::Pseudo(seed).bits(n)
 }
 
 fn battery(c: &mut Criterion) {

@@ -9,17 +9,8 @@ use sluice::extract::{Engine, Extractor, TwoSource};
 use std::time::Duration;
 
 fn pseudo_bits(seed: u64, n: usize) -> Bits {
-    // xorshift64 (common practice for bench data)
-    let mut s = seed | 1;
-    let words = (0..n.div_ceil(64))
-        .map(|_| {
-            s ^= s << 13;
-            s ^= s >> 7;
-            s ^= s << 17;
-            s
-        })
-        .collect();
-    Bits::from_words(words, n)
+    // The crate's one test generator.
+    sluice::bits::pseudo::bits(seed | 1, n)
 }
 
 fn benches(c: &mut Criterion) {

@@ -32,10 +32,13 @@
 //! Parsing is pure ([`parse`]); [`check_case`] recomputes one case with the
 //! library's extractors.
 
+#![forbid(unsafe_code)]
+
 use crate::bits::digest::data_digest;
 use crate::bits::{BitOrder, Bits};
-use crate::extract::trevisan::{DesignKind, OneBit, Trevisan, TrevisanSpec};
-use crate::extract::{Engine, Extractor, ModifiedToeplitz, Toeplitz, TwoSource};
+use crate::extract::spec::SpecError;
+use crate::extract::trevisan::TrevisanSpec;
+use crate::extract::{Engine, Extractor, ExtractorSpec};
 use sha3::digest::{ExtendableOutput, Update, XofReader};
 use std::collections::BTreeMap;
 use std::fmt;
@@ -276,65 +279,33 @@ impl Data {
 
 /// Builds the extractor a case names, on `engine`.
 pub fn build_extractor(case: &Case, engine: Engine) -> Result<Box<dyn Extractor>, String> {
-    let (n, m) = (case.input_bits, case.output_bits);
-    match case.extractor.as_str() {
-        "toeplitz" => Ok(Box::new(
-            Toeplitz::with_engine(n, m, engine).map_err(|e| e.to_string())?,
-        )),
-        "modified-toeplitz" => Ok(Box::new(
-            ModifiedToeplitz::with_engine(n, m, engine).map_err(|e| e.to_string())?,
-        )),
-        "two-source" => Ok(Box::new(
-            TwoSource::with_engine(n, m, engine).map_err(|e| e.to_string())?,
-        )),
-        "trevisan" => {
-            let spec = trevisan_spec(case)?;
-            let be = match engine {
-                Engine::Clmul(b) => b,
-                Engine::Auto => crate::gf2::Backend::detect(),
-                Engine::Fft | Engine::Additive(_) => {
-                    return Err("trevisan has no FFT engine".into())
-                }
-            };
-            Ok(Box::new(
-                Trevisan::with_backend(&spec, be).map_err(|e| e.to_string())?,
-            ))
-        }
-        other => Err(format!("unknown extractor {other:?}")),
-    }
+    let spec = case_spec(case)?;
+    spec.build(engine).map_err(|e| match e {
+        SpecError::NoFftEngine(_) => "trevisan has no FFT engine".to_string(),
+        e => e.to_string(),
+    })
+}
+
+/// The extractor a case names.
+pub fn case_spec(case: &Case) -> Result<ExtractorSpec, String> {
+    ExtractorSpec::from_params(
+        &case.extractor,
+        case.input_bits,
+        case.output_bits,
+        &case.params,
+    )
+    .map_err(|e| match e {
+        SpecError::Param(p) => format!("param {p}"),
+        e => e.to_string(),
+    })
 }
 
 /// The Trevisan parameters of a case (`param one-bit`, `design`,
 /// `field-bits`, `design-factor`, `prime`).
 pub fn trevisan_spec(case: &Case) -> Result<TrevisanSpec, String> {
-    let get = |k: &str| case.params.get(k).map(String::as_str);
-    let num = |k: &str| -> Result<Option<u64>, String> {
-        get(k)
-            .map(|v| {
-                v.parse::<u64>()
-                    .map_err(|_| format!("param {k}: {v:?} is not a whole number"))
-            })
-            .transpose()
-    };
-    let one_bit = match get("one-bit") {
-        Some("ph") => OneBit::Ph,
-        Some("ip") => OneBit::Ip,
-        other => return Err(format!("param one-bit: {other:?}, expected ph or ip")),
-    };
-    let design = match get("design") {
-        Some("poly") => DesignKind::Poly,
-        Some("block") => DesignKind::Block,
-        other => return Err(format!("param design: {other:?}, expected poly or block")),
-    };
-    Ok(TrevisanSpec {
-        n: case.input_bits,
-        m: case.output_bits,
-        one_bit,
-        field_bits: num("field-bits")?.unwrap_or(0) as usize,
-        design,
-        design_factor: num("design-factor")?.unwrap_or(1),
-        prime: num("prime")?,
-    })
+    let spec = case_spec(case)?;
+    spec.trevisan()
+        .ok_or_else(|| format!("{}: not a Trevisan case", case.extractor))
 }
 
 /// The engines a case is checked on: every supported one, except the

@@ -32,15 +32,9 @@ fn kind<'a>(v: &'a serde_json::Value, test: &str, label: &str) -> &'a serde_json
 /// Deterministic pseudo-random bytes (xorshift64, seed stated) for a
 /// fictional device's output file.
 fn pseudo_random(n: usize, seed: u64) -> Vec<u8> {
-    let mut s = seed;
-    (0..n)
-        .map(|_| {
-            s ^= s << 13;
-            s ^= s >> 7;
-            s ^= s << 17;
-            (s >> 32) as u8
-        })
-        .collect()
+    // The crate's one test generator; bits 32..40 of each step.
+    let mut p = sluice::bits::pseudo::Pseudo(seed);
+    (0..n).map(|_| (p.next() >> 32) as u8).collect()
 }
 
 /// statistics.md 2.1 F-2, 2.3 RU-2 and 2.13 CS-2/CS-3 through the command

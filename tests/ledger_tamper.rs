@@ -13,17 +13,11 @@ use sluice::ledger::{Body, Ledger};
 use sluice::seed::{Origin, Store};
 use std::collections::BTreeMap;
 
-struct Rng(u64);
+/// The crate's one test generator (seeded, replayable), over lengths.
+struct Rng(sluice::bits::pseudo::Pseudo);
 impl Rng {
-    fn next(&mut self) -> u64 {
-        // xorshift64 (common practice for test data; seeded, replayable).
-        self.0 ^= self.0 << 13;
-        self.0 ^= self.0 >> 7;
-        self.0 ^= self.0 << 17;
-        self.0
-    }
     fn below(&mut self, n: usize) -> usize {
-        (self.next() % n as u64) as usize
+        self.0.below(n as u64) as usize
     }
 }
 
@@ -126,7 +120,7 @@ fn every_edit_of_the_journal_or_the_store_is_caught() {
         .map(|s| l.seeds_dir().join(format!("{s}.seed.json")))
         .collect();
     let originals: Vec<Vec<u8>> = files.iter().map(|f| std::fs::read(f).unwrap()).collect();
-    let mut rng = Rng(0x7a3_0015);
+    let mut rng = Rng(sluice::bits::pseudo::Pseudo(0x7a3_0015));
     let mut tried = BTreeMap::<&str, (u32, u32)>::new();
     for _ in 0..rounds {
         let kind = rng.below(9);

@@ -11,18 +11,9 @@ use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
 use std::sync::Mutex;
 use std::time::{Duration, Instant};
 
-/// Deterministic bits from a 64-bit seed (xorshift64*, common practice).
-fn random_bits(len: usize, mut s: u64) -> Bits {
-    s |= 1;
-    let words: Vec<u64> = (0..len.div_ceil(64))
-        .map(|_| {
-            s ^= s >> 12;
-            s ^= s << 25;
-            s ^= s >> 27;
-            s.wrapping_mul(0x2545_f491_4f6c_dd1d)
-        })
-        .collect();
-    Bits::from_words(words, len)
+/// Deterministic bits from a 64-bit seed (the crate's one test generator).
+fn random_bits(len: usize, s: u64) -> Bits {
+    sluice::bits::pseudo::bits(s | 1, len)
 }
 
 /// Records every report.

@@ -13,6 +13,8 @@
 //! a defect. Only the entropy certification and the extractor's proof give
 //! a guarantee.
 
+#![forbid(unsafe_code)]
+
 mod error;
 pub mod many;
 pub mod sp800_22;

@@ -12,9 +12,12 @@
 //! `'0'`/`'1'` with white space ignored, and hexadecimal digits of the packed
 //! bytes. See [`io`] for readers that stream blocks from files.
 
+#![forbid(unsafe_code)]
+
 pub mod digest;
 mod error;
 pub mod io;
+pub mod pseudo;
 pub mod source;
 
 pub use error::{Error, ErrorKind};

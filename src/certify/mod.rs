@@ -23,6 +23,8 @@
 //! assert_eq!(eat_plan(&p).unwrap().bits, 52_402_723);
 //! ```
 
+#![forbid(unsafe_code)]
+
 pub mod certificate;
 pub mod chsh;
 pub mod eat;

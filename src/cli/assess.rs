@@ -3,12 +3,12 @@
 //! battery over one or many sequences). All numbers come from
 //! `sluice::assess`; this module reads files, prints and plots.
 
+use super::assess_report::{KindSummary, NotRun, OutputReport, RawReport};
 use crate::cli::common;
 use anyhow::{bail, Context};
 use clap::{Args, Subcommand, ValueEnum};
 use rayon::prelude::*;
-use serde::Serialize;
-use sluice::assess::many::{self, Summary};
+use sluice::assess::many;
 use sluice::assess::sp800_22::{self, Outcome, TestId, TestReport};
 use sluice::assess::sp800_90b::{estimators, health};
 use sluice::bits::{io, BitOrder, Bits, Format};
@@ -163,25 +163,6 @@ fn read_input(o: &InputOpts) -> anyhow::Result<Bits> {
 }
 
 // ---------------------------------------------------------------- raw
-
-#[derive(Serialize)]
-pub(super) struct RawReport {
-    pub(super) file: String,
-    pub(super) bits: usize,
-    pub(super) claimed_entropy: Option<f64>,
-    pub(super) health_entropy: f64,
-    pub(super) health_entropy_source: &'static str,
-    pub(super) repetition_count: health::HealthOutcome,
-    pub(super) adaptive_proportion: health::HealthOutcome,
-    pub(super) adaptive_proportion_window: usize,
-    pub(super) health_passed: bool,
-    pub(super) estimator_samples: usize,
-    pub(super) assessment: estimators::Assessment,
-    pub(super) comparison: String,
-    pub(super) red_flag: bool,
-    pub(super) notes: Vec<String>,
-    pub(super) caution: &'static str,
-}
 
 fn run_raw(a: RawArgs) -> anyhow::Result<ExitCode> {
     a.input.check_plot()?;
@@ -344,44 +325,6 @@ fn print_raw(r: &RawReport) {
 }
 
 // ------------------------------------------------------------- output
-
-#[derive(Serialize)]
-pub(super) struct KindSummary {
-    pub(super) test: TestId,
-    pub(super) section: &'static str,
-    pub(super) label: String,
-    #[serde(flatten)]
-    pub(super) summary: Summary,
-    /// The P-value itself, when one sequence was tested.
-    #[serde(skip_serializing_if = "Option::is_none")]
-    pub(super) p_value: Option<f64>,
-    pub(super) flagged: bool,
-}
-
-#[derive(Serialize)]
-pub(super) struct NotRun {
-    pub(super) test: TestId,
-    pub(super) section: &'static str,
-    pub(super) sequences: usize,
-    pub(super) reason: String,
-}
-
-#[derive(Serialize)]
-pub(super) struct OutputReport {
-    pub(super) file: String,
-    pub(super) bits: usize,
-    pub(super) sequences: usize,
-    pub(super) sequence_bits: usize,
-    pub(super) alpha: f64,
-    pub(super) parameters: Vec<(TestId, String)>,
-    pub(super) kinds: Vec<KindSummary>,
-    pub(super) not_applicable: Vec<NotRun>,
-    /// With one sequence: its reports in full.
-    pub(super) single: Option<Vec<TestReport>>,
-    pub(super) flagged: usize,
-    pub(super) overall: String,
-    pub(super) caution: &'static str,
-}
 
 fn run_output(a: OutputArgs) -> anyhow::Result<ExitCode> {
     a.input.check_plot()?;

@@ -2,8 +2,9 @@
 
 use super::common;
 use sluice::bits::Bits;
-use sluice::extract::{Engine, Extractor, ModifiedToeplitz, Toeplitz, TwoSource};
-use sluice::plan::two_source::largest_n;
+use sluice::extract::spec::Family;
+use sluice::extract::two_source::largest_n;
+use sluice::extract::{Engine, Extractor, ExtractorSpec, Toeplitz};
 use std::process::ExitCode;
 use std::time::{Duration, Instant};
 
@@ -59,18 +60,7 @@ struct Row {
 }
 
 fn pseudo_bits(seed: u64, n: usize) -> Bits {
-    let mut s = seed | 1;
-    Bits::from_words(
-        (0..n.div_ceil(64))
-            .map(|_| {
-                s ^= s << 13;
-                s ^= s >> 7;
-                s ^= s << 17;
-                s
-            })
-            .collect(),
-        n,
-    )
+    sluice::bits::pseudo::bits(seed | 1, n)
 }
 
 /// Median time of one extraction, from batches filling `budget`.
@@ -117,17 +107,26 @@ pub fn run(a: BenchArgs) -> anyhow::Result<ExitCode> {
             if engine.name() == "portable" && log_n > 18 {
                 continue;
             }
-            for family in ["toeplitz", "modified-toeplitz", "two-source"] {
-                let plan: Box<dyn Extractor> = match family {
-                    "toeplitz" => Box::new(Toeplitz::with_engine(n, m, engine)?),
-                    "modified-toeplitz" => Box::new(ModifiedToeplitz::with_engine(n, m, engine)?),
-                    _ => {
-                        // The largest valid two-source length not above 2^k
-                        // (hashing spec 6.1), the second source bound once.
+            for family in [
+                Family::Toeplitz,
+                Family::ModifiedToeplitz,
+                Family::TwoSource,
+            ] {
+                let spec = match family {
+                    // The largest valid two-source length not above 2^k
+                    // (hashing spec 6.1), the second source bound once.
+                    Family::TwoSource => {
                         let n2 = largest_n(n as u64).expect("a valid n below 2^14") as usize;
-                        Box::new(TwoSource::with_engine(n2, n2 / 2, engine)?)
+                        ExtractorSpec {
+                            family,
+                            n: n2,
+                            m: n2 / 2,
+                        }
                     }
+                    _ => ExtractorSpec { family, n, m },
                 };
+                let plan = spec.build(engine)?;
+                let family = family.name();
                 pb.set_message(format!("{family} {} 2^{log_n}", engine.name()));
                 let t = measure(plan.as_ref(), budget);
                 let (n, m) = (plan.input_bits(), plan.output_bits());

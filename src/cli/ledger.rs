@@ -3,7 +3,7 @@
 use super::common::{self, FormatArg, OrderArg};
 use anyhow::{bail, Context};
 use sluice::ledger::{Body, Ledger, Record};
-use sluice::pipeline::{self, BitFile};
+use sluice::pipeline::BitFile;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -145,28 +145,7 @@ pub fn run(a: LedgerArgs) -> anyhow::Result<ExitCode> {
                 format: format.into(),
                 order: bit_order.into(),
             };
-            if f.is_std() {
-                bail!("commit-raw needs a file, not standard input");
-            }
-            let bits = pipeline::count_bits(&f)?;
-            if bits == 0 {
-                bail!(
-                    "{}: the file holds no bits; nothing was recorded",
-                    file.display()
-                );
-            }
-            let digest = pipeline::digest_prefix(&f, bits)?;
-            let d = digest.clone();
-            let (line, _) = ledger.append(|st| {
-                Ok::<_, sluice::ledger::Error>((
-                    vec![Body::RawCommitted {
-                        digest: d,
-                        bits,
-                        origin,
-                    }],
-                    st.lines + 1 + u64::from(st.lines == 0),
-                ))
-            })?;
+            let (line, bits) = sluice::pipeline::job::commit_raw(&ledger, &f, &origin)?;
             if json {
                 common::print_json(&serde_json::json!({
                     "file": file, "bits": bits, "line": line,
@@ -249,49 +228,7 @@ pub fn run(a: LedgerArgs) -> anyhow::Result<ExitCode> {
             reason,
             json,
         } => {
-            let r = ledger.read()?;
-            if let Some(p) = r.problem {
-                bail!("{p}");
-            }
-            let Some(u) = r.state.uses.get(&use_id).cloned() else {
-                bail!("use {use_id} is not in this ledger (`sluice ledger verify` lists the open ones)");
-            };
-            if let Some(l) = u.resolved_line {
-                bail!("use {use_id} was already resolved at line {l}; nothing to do");
-            }
-            if ledger.run_in_progress(&use_id) {
-                bail!("use {use_id}: its run is still going (it holds its lock file); wait for it to end, or stop it first");
-            }
-            match &u.output {
-                Some(out) if Path::new(out).exists() => bail!(
-                    "use {use_id}: its output {out} exists: the run may have finished without its commit; check the output (sluice verify), and remove it first if it must not be used; refused"
-                ),
-                Some(_) => {}
-                None => bail!(
-                    "use {use_id}: its reservation does not say where the output went (written by an older version), so its absence cannot be checked; refused"
-                ),
-            }
-            let reason = format!("resolved by `ledger abandon`: {reason}");
-            let (line, _) = ledger.append(|st| {
-                // Checked again under the lock.
-                if st
-                    .uses
-                    .get(&use_id)
-                    .is_some_and(|u| u.resolved_line.is_some())
-                {
-                    return Err(anyhow::anyhow!(
-                        "use {use_id} was resolved meanwhile; nothing to do"
-                    ));
-                }
-                Ok((
-                    vec![Body::UseAbandoned {
-                        use_id: use_id.clone(),
-                        reason,
-                    }],
-                    st.lines + 1,
-                ))
-            })?;
-            ledger.remove_run_lock(&use_id);
+            let (u, line) = sluice::pipeline::seeds::abandon(&ledger, &use_id, &reason)?;
             if json {
                 common::print_json(&serde_json::json!({
                     "use": use_id, "seed": u.seed, "abandoned_at_line": line, "charged": u.error,
@@ -461,190 +398,4 @@ fn describe(b: &Body) -> String {
             copy,
         } => format!("repair: dropped a torn tail of {dropped_bytes} bytes (copy {copy})"),
     }
-}
-
-#[derive(serde::Serialize)]
-struct LedgeredJson<'a> {
-    extractor: &'static str,
-    output: &'a Path,
-    receipt: &'a Path,
-    seed: &'a str,
-    new_seed: bool,
-    #[serde(rename = "use")]
-    use_id: &'a str,
-    charged: f64,
-    eps_total: f64,
-    seed_uses: u64,
-    seed_spent: f64,
-    seed_left: f64,
-    #[serde(flatten)]
-    report: &'a pipeline::Report,
-}
-
-/// `sluice extract --seed ID | --new-seed`: an automatic run whose use is
-/// reserved in the ledger before any output exists and committed after the
-/// output is durably renamed (the order is kept by
-/// `sluice::pipeline::ledgered`).
-pub fn run_extract(a: super::extract::ExtractArgs) -> anyhow::Result<ExitCode> {
-    use sluice::seed::{Origin, Store};
-    let c = &a.common;
-    let lu = &a.ledgered;
-    if !a.security.any_given() {
-        bail!(
-            "--seed and --new-seed charge the use's error to the seed: give the security inputs \
-             (--min-entropy, --min-entropy-rate or --certificate, and --target-error) so the planner computes it"
-        );
-    }
-    if a.output.as_os_str() == "-" {
-        bail!("a run recorded in the ledger writes a file (its digest is recorded): give -o FILE");
-    }
-    let receipt_path = a
-        .receipt_path()
-        .expect("a ledgered run writes a file, so it has a receipt path");
-    // Before anything is reserved: a refused output costs nothing.
-    a.check_outputs(Some(&receipt_path))?;
-    let ledger = Ledger::new(ledger_dir(lu.ledger.as_deref())?);
-    let store = Store::new(ledger.clone());
-    // A journal that does not verify stops everything before any work.
-    let replay = ledger.read()?;
-    if let Some(p) = replay.problem {
-        bail!("{p}");
-    }
-    let (deficiency, eps_seed, stored, source) = match &lu.seed {
-        Some(id) => {
-            let s = replay.state.seed(id)?;
-            if let Some(l) = s.retired_line {
-                bail!("seed {id} was retired (line {l}) and may not be used");
-            }
-            (
-                s.deficiency,
-                s.eps_seed,
-                Some(store.load(id)?.bits),
-                s.source.clone(),
-            )
-        }
-        None => (0.0, 0.0, None, "os".to_string()),
-    };
-    let (layout, plan) = super::auto::plan_run_seeded(c, &a.security, deficiency, eps_seed)?;
-    let seed_bits = match stored {
-        Some(b) => b,
-        None => Store::os_bits(usize::try_from(plan.seed_bits())?)?,
-    };
-    let r = super::extract::resolve(c, &layout, Some(&seed_bits))?;
-    common::print_cautions(c.quiet);
-    plan.print_summary(c.quiet);
-    let (seed_id, pending) = match &lu.seed {
-        Some(id) => (id.clone(), None),
-        None => {
-            let budget = lu.seed_budget.unwrap_or(sluice::seed::DEFAULT_BUDGET);
-            let p = store.prepare(&seed_bits, Origin::Os, budget)?;
-            (p.id.clone(), Some(p))
-        }
-    };
-    let n = r.plan.input_bits() as u64;
-    let spec = sluice::pipeline::ledgered::UseSpec {
-        seed: seed_id.clone(),
-        construction: r.plan.name().to_string(),
-        params: [
-            ("n".to_string(), n),
-            ("m".to_string(), r.plan.output_bits() as u64),
-            ("d".to_string(), r.plan.seed_bits() as u64),
-        ]
-        .into_iter()
-        .collect(),
-        input_digest: plan.input_digest().to_string(),
-        blocks: layout.input_bits.unwrap_or(n) / n,
-        seed_bits: r.plan.seed_bits() as u64,
-        error: plan.seed_charge(),
-        device_independent: plan.device_independent(),
-        cross_run_asserted: lu.cross_run,
-        repeat_reason: lu.repeat_reason.clone(),
-        output: a.output.clone(),
-        receipt: Some(receipt_path.clone()),
-    };
-    let output = c.files.output(&a.output);
-    let bar_total = r.bar_total(layout.input_bits);
-    let run = pipeline::Run {
-        input: r.source,
-        input_bits: layout.input_bits,
-        extractor: r.plan.as_ref(),
-        seed: &r.seed,
-        output: output.clone(),
-    };
-    super::extract::print_whole_run_estimate(&run, c.quiet)?;
-    let pb = common::progress_bits(bar_total, "extracting");
-    let after = |report: &pipeline::Report| -> Result<(String, Option<String>), String> {
-        let out_digest =
-            pipeline::digest_prefix(&output, report.output_bits).map_err(|e| e.to_string())?;
-        let in_receipt = a.receipt_output_digest.then(|| out_digest.clone());
-        plan.write_receipt(
-            &receipt_path,
-            r.plan.as_ref(),
-            report,
-            c,
-            in_receipt,
-            Some((&seed_id, &source)),
-            a.force,
-        )
-        .map_err(|e| format!("{e:#}"))?;
-        let bytes =
-            std::fs::read(&receipt_path).map_err(|e| format!("{}: {e}", receipt_path.display()))?;
-        Ok((out_digest, Some(blake3::hash(&bytes).to_hex().to_string())))
-    };
-    let res = sluice::pipeline::ledgered::execute(
-        &ledger,
-        &store,
-        &spec,
-        pending,
-        &run,
-        sluice::files::Replace::forced(a.force),
-        |d| pb.set_position(d),
-        after,
-    );
-    pb.finish_and_clear();
-    let out = res?;
-    let s = &out.seed_state;
-    if c.json {
-        common::print_json(&LedgeredJson {
-            extractor: r.plan.name(),
-            output: &a.output,
-            receipt: &receipt_path,
-            seed: &seed_id,
-            new_seed: lu.new_seed,
-            use_id: &out.use_id,
-            charged: spec.error,
-            eps_total: plan.eps_total(),
-            seed_uses: s.uses,
-            seed_spent: s.spent,
-            seed_left: s.left(),
-            report: &out.report,
-        })?;
-    } else {
-        eprintln!(
-            "{}",
-            super::extract::describe(&out.report, c, r.plan.as_ref())
-        );
-        eprintln!("wrote {} (owner-only permissions)", a.output.display());
-        eprintln!(
-            "wrote {} (private: it holds a digest of the raw input)",
-            receipt_path.display()
-        );
-        eprintln!(
-            "seed {seed_id}: this use charged {:e}; {} use(s), spent {:e} of {:e}, left {:e}",
-            spec.error,
-            s.uses,
-            s.spent,
-            s.budget,
-            s.left()
-        );
-        if let Some(r) = &spec.repeat_reason {
-            eprintln!(
-                "override: extracting again from raw data already used, reason recorded: {r:?}"
-            );
-        }
-        if spec.cross_run_asserted {
-            eprintln!("asserted: the certificate conditions on the earlier runs' raw outputs (hashing spec 4.1 rule 3)");
-        }
-    }
-    Ok(ExitCode::SUCCESS)
 }

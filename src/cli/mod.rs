@@ -5,8 +5,9 @@
 //! counts as success; `--json` prints one JSON document on standard output
 //! for scripts; progress bars appear only on a terminal.
 
+mod args;
 mod assess;
-mod auto;
+mod assess_report;
 mod bench;
 mod certify;
 mod common;
@@ -36,9 +37,9 @@ struct Cli {
 #[derive(Subcommand)]
 enum Command {
     /// Hash raw bits into near-uniform bits with a seeded extractor
-    Extract(extract::ExtractArgs),
+    Extract(args::ExtractArgs),
     /// Recompute an output and check a claimed one against it
-    Verify(extract::VerifyArgs),
+    Verify(args::VerifyArgs),
     /// Compare the extractors for your security inputs and pick one
     Plan(plan::PlanArgs),
     /// Certify the record of a CHSH Bell test (or plan a run)

@@ -3,7 +3,7 @@
 //! library through the commands' reports. Each draws into a string; the
 //! commands write it through the one atomic writer (`common::write_svg`).
 
-use super::assess::{OutputReport, RawReport};
+use super::assess_report::{OutputReport, RawReport};
 use anyhow::{anyhow, Result};
 use sluice::assess::many;
 

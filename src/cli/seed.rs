@@ -5,11 +5,10 @@
 use super::common::{self, FormatArg};
 use super::ledger::LedgerOpt;
 use anyhow::bail;
-use sluice::bits::{BitOrder, Bits};
-use sluice::files::{AtomicFile, Kind, Replace};
-use sluice::ledger::{Body, SeedState};
+use sluice::bits::BitOrder;
+use sluice::files::{Kind, Replace};
+use sluice::ledger::SeedState;
 use sluice::seed::{self, Origin, Store};
-use std::io::Write;
 use std::path::PathBuf;
 use std::process::ExitCode;
 
@@ -231,33 +230,11 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
                     sluice::plan::compose::RECYCLING_CONDITION
                 );
             }
-            if !(output_error.is_finite() && (0.0..1.0).contains(&output_error)) {
-                bail!("--output-error {output_error}: give the earlier output's total error, a number in [0, 1)");
-            }
-            let all = sluice::bits::io::read_bits(
+            let (id, keep) = sluice::pipeline::seeds::recycle(
+                &store,
                 &output,
-                sluice::bits::Format::Packed,
-                BitOrder::Msb,
-                None,
-            )?;
-            // compose::recycle checks the fit and gives what stays delivered.
-            let r = sluice::plan::compose::recycle(all.len() as u64, bits as u64, true)?;
-            let keep = r.delivered_bits as usize;
-            let s = all.slice(keep, bits);
-            // The seed bits are public from now on: never delivered, so
-            // they leave the output before they become a seed (a failure in
-            // between loses them; it never delivers them twice).
-            // The output is cut in place: it stays an output.
-            let mut f = AtomicFile::create(&output, Kind::ExtractOutput, Replace::Any)?;
-            f.write_all(&all.slice(0, keep).to_packed(BitOrder::Msb))?;
-            f.commit()?;
-            let id = store.register(
-                &s,
-                Origin::Recycled {
-                    eps_seed: output_error,
-                    origin: format!("last {bits} bits of the sluice output {}", output.display()),
-                    asserted: true,
-                },
+                bits,
+                output_error,
                 budget_or(budget),
             )?;
             if !json {
@@ -298,7 +275,7 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
             let s = st.seed(&id)?.clone();
             let hex_bits = if reveal {
                 let seed = store.load(&id)?;
-                disclose(&ledger, &id, "shown with seed show --reveal")?;
+                sluice::pipeline::seeds::disclose(&ledger, &id, "shown with seed show --reveal")?;
                 Some(hex::encode(seed.bits.to_packed(BitOrder::Msb)))
             } else {
                 None
@@ -367,13 +344,14 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
                     force,
                 )?;
             }
-            let seed = store.load(&id)?;
-            checked(&ledger)?.seed(&id)?;
-            // Record first: the disclosure must precede the bits leaving.
-            disclose(&ledger, &id, &how)?;
-            if let Some(p) = &output {
-                write_seed(p, &seed.bits, force)?;
-            }
+            // The disclosure is recorded before the bits leave.
+            sluice::pipeline::seeds::reveal(
+                &ledger,
+                &store,
+                &id,
+                &how,
+                output.as_deref().map(|p| (p, Replace::forced(force))),
+            )?;
             if json {
                 common::print_json(
                     &serde_json::json!({"seed": id, "disclosed": true, "written_to": output}),
@@ -390,15 +368,7 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
             }
         }
         Cmd::Budget { id, budget, json } => {
-            ledger.append(|_| {
-                Ok::<_, sluice::ledger::Error>((
-                    vec![Body::BudgetSet {
-                        seed: id.clone(),
-                        budget,
-                    }],
-                    (),
-                ))
-            })?;
+            sluice::pipeline::seeds::set_budget(&ledger, &id, budget)?;
             if json {
                 common::print_json(&serde_json::json!({"seed": id, "budget": budget}))?;
             } else {
@@ -406,9 +376,7 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
             }
         }
         Cmd::Retire { id, json } => {
-            ledger.append(|_| {
-                Ok::<_, sluice::ledger::Error>((vec![Body::SeedRetired { seed: id.clone() }], ()))
-            })?;
+            sluice::pipeline::seeds::retire(&ledger, &id)?;
             if json {
                 common::print_json(&serde_json::json!({"seed": id, "retired": true}))?;
             } else {
@@ -420,29 +388,5 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
 }
 
 fn checked(ledger: &sluice::ledger::Ledger) -> anyhow::Result<sluice::ledger::State> {
-    let r = ledger.read()?;
-    if let Some(p) = r.problem {
-        bail!("{p}");
-    }
-    Ok(r.state)
-}
-
-fn disclose(ledger: &sluice::ledger::Ledger, id: &str, how: &str) -> anyhow::Result<()> {
-    ledger.append(|_| {
-        Ok::<_, sluice::ledger::Error>((
-            vec![Body::SeedDisclosed {
-                seed: id.to_string(),
-                how: how.to_string(),
-            }],
-            (),
-        ))
-    })?;
-    Ok(())
-}
-
-fn write_seed(p: &std::path::Path, bits: &Bits, force: bool) -> anyhow::Result<()> {
-    let mut f = AtomicFile::create(p, Kind::SeedFile, Replace::forced(force))?;
-    f.write_all(&bits.to_packed(BitOrder::Msb))?;
-    f.commit()?;
-    Ok(())
+    Ok(sluice::pipeline::seeds::checked_state(ledger)?)
 }

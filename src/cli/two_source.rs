@@ -5,13 +5,11 @@
 //! seed's place in the extractor (see `sluice::extract::two_source`). One
 //! block: the first n bits of X and of Y, n a valid length (6.1).
 
+use super::args::{Common, ExtractArgs, ExtractorArg, VerifyArgs};
 use super::common;
-use super::extract::{Common, ExtractArgs, ExtractorArg, VerifyArgs};
-use anyhow::{bail, Context};
-use sluice::bits::Bits;
-use sluice::extract::{Extractor, TwoSource};
-use sluice::pipeline::{Run, Source};
-use sluice::plan::two_source::largest_n;
+use anyhow::bail;
+use sluice::extract::Extractor;
+use sluice::pipeline::two_source::{self, Resolved, TwoSourceJob};
 use std::io::Write;
 use std::path::Path;
 use std::process::ExitCode;
@@ -21,40 +19,9 @@ pub fn wanted(c: &Common) -> bool {
     c.extractor == Some(ExtractorArg::TwoSource)
 }
 
-/// The planned extractor and both sources, cut to n bits.
-struct Resolved {
-    plan: TwoSource,
-    x: Bits,
-    y: Bits,
-}
-
-fn suggestion(limit: u64) -> String {
-    match largest_n(limit) {
-        Some(v) => format!("the largest valid n not above {limit} is {v}"),
-        None => format!("no valid n is at most {limit} (the smallest is 3)"),
-    }
-}
-
-#[cfg(unix)]
-fn same_file(a: &Path, b: &Path) -> bool {
-    use std::os::unix::fs::MetadataExt;
-    match (std::fs::metadata(a), std::fs::metadata(b)) {
-        (Ok(x), Ok(y)) => x.dev() == y.dev() && x.ino() == y.ino(),
-        _ => false,
-    }
-}
-
-#[cfg(not(unix))]
-fn same_file(a: &Path, b: &Path) -> bool {
-    match (std::fs::canonicalize(a), std::fs::canonicalize(b)) {
-        (Ok(x), Ok(y)) => x == y,
-        _ => false,
-    }
-}
-
-/// Checks the options that make no sense without a seed, reads both sources
-/// and plans.
-fn resolve(c: &Common) -> anyhow::Result<Resolved> {
+/// Checks the options that make no sense without a seed, then reads both
+/// sources and plans (in the library).
+fn resolve(c: &Common) -> anyhow::Result<(TwoSourceJob, Resolved)> {
     if c.seed_file.is_some() {
         bail!("--seed-file does not apply to --extractor two-source: it has no seed; give the second raw source with --second-source Y");
     }
@@ -77,86 +44,15 @@ fn resolve(c: &Common) -> anyhow::Result<Resolved> {
     let Some(m) = c.output_bits else {
         bail!("--extractor two-source needs --output-bits M: the planner does not size two-source runs (see `sluice plan --two-source` for m_max and eps)");
     };
-    if ypath.as_os_str() == "-" {
-        bail!("--second-source -: the second source must be a file, not standard input");
-    }
-    if c.input.as_os_str() != "-" && same_file(&c.input, ypath) {
-        bail!(
-            "{} and {} are the same file: the two sources must be independent",
-            c.input.display(),
-            ypath.display()
-        );
-    }
-    if c.input_bits == Some(0) {
-        bail!("--input-bits 0: the input length must be at least 1 bit");
-    }
-    let xf = c.files.input(&c.input);
-    let read = |p: &Path| -> anyhow::Result<Bits> {
-        let b = sluice::bits::io::read_bits(p, xf.format, xf.order, None)?;
-        if b.is_empty() {
-            bail!("{}: the file holds no bits", p.display());
-        }
-        Ok(b)
+    let job = TwoSourceJob {
+        input: c.files.input(&c.input),
+        second: ypath.to_path_buf(),
+        input_bits: c.input_bits,
+        m,
+        engine: c.engine,
     };
-    let x = read(&c.input)?;
-    let y = read(ypath)?;
-    let have = x.len().min(y.len()) as u64;
-    let n = match c.input_bits {
-        Some(n) => {
-            for (p, b) in [(c.input.as_path(), &x), (ypath, &y)] {
-                if (b.len() as u64) < n {
-                    bail!(
-                        "{}: {n} bits asked for (--input-bits), but it ends after {} bits",
-                        p.display(),
-                        b.len()
-                    );
-                }
-            }
-            n
-        }
-        None => {
-            if x.len() != y.len() {
-                bail!(
-                    "{} holds {} bits and {} holds {}: give --input-bits N to use the first N bits of both ({})",
-                    c.input.display(),
-                    x.len(),
-                    ypath.display(),
-                    y.len(),
-                    suggestion(have)
-                );
-            }
-            have
-        }
-    };
-    if !sluice::plan::two_source::valid_n(n) {
-        let mut msg = format!(
-            "n = {n} bits is not a valid two-source length (it must be a prime with 2 as a \
-             primitive root modulo n); {}",
-            suggestion(have)
-        );
-        if n < have {
-            msg.push_str(&format!(" ({})", suggestion(n)));
-        }
-        msg.push_str(": pass it as --input-bits");
-        bail!(msg);
-    }
-    let n = usize::try_from(n).context("--input-bits too large for this machine")?;
-    if m == 0 || m >= n {
-        bail!(
-            "--output-bits {m} must be in 1..={} for two sources of {n} bits (hashing spec 6.1)",
-            n - 1
-        );
-    }
-    let (x, y) = (x.slice(0, n), y.slice(0, n));
-    if x == y {
-        bail!(
-            "the first {n} bits of {} and {} are identical: the two sources must be independent",
-            c.input.display(),
-            ypath.display()
-        );
-    }
-    let plan = TwoSource::with_engine(n, m, c.engine)?;
-    Ok(Resolved { plan, x, y })
+    let r = two_source::resolve(&job)?;
+    Ok((job, r))
 }
 
 /// Prints the cautions that apply to a two-source run.
@@ -180,19 +76,6 @@ struct ExtractJson<'a> {
     side_information: &'static str,
 }
 
-fn run_on<'a>(r: &'a Resolved, name: &Path, output: sluice::pipeline::BitFile) -> Run<'a> {
-    Run {
-        input: Source::Memory {
-            bits: r.x.clone(),
-            name: name.to_path_buf(),
-        },
-        input_bits: Some(r.x.len() as u64),
-        extractor: &r.plan,
-        seed: &r.y,
-        output,
-    }
-}
-
 /// Runs `sluice extract --extractor two-source`.
 pub fn run_extract(a: &ExtractArgs) -> anyhow::Result<ExitCode> {
     let c = &a.common;
@@ -206,10 +89,13 @@ pub fn run_extract(a: &ExtractArgs) -> anyhow::Result<ExitCode> {
         bail!("--receipt applies to planned runs only; a two-source run writes no receipt");
     }
     a.check_outputs(None)?;
-    let r = resolve(c)?;
+    let (job, r) = resolve(c)?;
     print_cautions(c.quiet);
-    let run = run_on(&r, &c.input, c.files.output(&a.output));
-    let report = run.execute_replacing(sluice::files::Replace::forced(a.force), |_| {})?;
+    let report = r.execute(
+        &job,
+        &c.files.output(&a.output),
+        sluice::files::Replace::forced(a.force),
+    )?;
     if c.json {
         let j = ExtractJson {
             extractor: r.plan.name(),
@@ -249,11 +135,9 @@ pub fn run_verify(a: &VerifyArgs) -> anyhow::Result<ExitCode> {
     if a.receipt.is_some() {
         bail!("--receipt: two-source runs write no receipt; give --extractor two-source --second-source Y --output-bits M");
     }
-    let r = resolve(c)?;
-    let claimed = c.files.output(&a.claimed);
-    let run = run_on(&r, &c.input, claimed.clone());
-    let v = run.verify(&claimed, |_| {})?;
-    super::extract::print_verdict(&v, c, &a.claimed)
+    let (job, r) = resolve(c)?;
+    let v = r.verify(&job, &c.files.output(&a.claimed))?;
+    print_verdict(&v, c, &a.claimed)
 }
 
 /// `sluice plan --two-source`: the output length and error of the seedless
@@ -348,7 +232,7 @@ fn plan_err(e: sluice::plan::Error) -> anyhow::Error {
 pub fn run_plan(
     t: &PlanTwoSource,
     raw: Option<u64>,
-    sec: &super::plan::SecurityArgs,
+    sec: &super::args::SecurityArgs,
     json: bool,
     quiet: bool,
 ) -> anyhow::Result<ExitCode> {
@@ -550,4 +434,45 @@ pub fn run_plan(
         Some(e) => Err(anyhow::anyhow!("{e}")),
         None => Err(anyhow::anyhow!("no output")),
     }
+}
+
+/// Prints a verification verdict; exit 0 on match, 1 on mismatch.
+pub fn print_verdict(
+    v: &sluice::pipeline::Verdict,
+    c: &Common,
+    claimed: &Path,
+) -> anyhow::Result<ExitCode> {
+    if c.json {
+        common::print_json(&v)?;
+    } else if v.matches {
+        println!(
+            "match: {} bits of {} agree with the recomputed output",
+            v.computed_bits,
+            claimed.display()
+        );
+    } else {
+        let first = v.first_difference.unwrap_or(0);
+        println!(
+            "MISMATCH: {} differs from the recomputed output; first differing bit {first}, {} differing bits over the common length",
+            claimed.display(),
+            v.differing_bits
+        );
+        if v.claimed_bits < v.computed_bits {
+            println!(
+                "the claimed output holds {} bits, the recomputed one {}",
+                v.claimed_bits, v.computed_bits
+            );
+        }
+        if v.extra_claimed_bits > 0 {
+            println!(
+                "the claimed output has {} bits beyond the recomputed {}",
+                v.extra_claimed_bits, v.computed_bits
+            );
+        }
+    }
+    Ok(if v.matches {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    })
 }

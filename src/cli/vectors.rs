@@ -4,7 +4,8 @@ use super::common;
 use anyhow::{bail, Context};
 use sluice::bits::digest::data_digest;
 use sluice::bits::{BitOrder, Bits};
-use sluice::extract::{reference, Engine, Extractor, ModifiedToeplitz, Toeplitz, TwoSource};
+use sluice::extract::spec::Family;
+use sluice::extract::{reference, Engine, Extractor, ExtractorSpec, Toeplitz};
 use sluice::vectors::{self, shake_bits, Outcome};
 use std::fmt::Write as _;
 use std::io::Write as _;
@@ -378,7 +379,12 @@ fn compute_two_source(x: &Bits, y: &Bits, m: usize) -> anyhow::Result<Bits> {
         return Ok(reference::two_source(x, y, m));
     }
     let run = |e: Engine| -> anyhow::Result<Bits> {
-        let plan = TwoSource::with_engine(n, m, e)?;
+        let plan = ExtractorSpec {
+            family: Family::TwoSource,
+            n,
+            m,
+        }
+        .build(e)?;
         let mut z = Bits::zeros(m);
         plan.extract(x, y, &mut z);
         Ok(z)
@@ -401,11 +407,12 @@ fn compute(modified: bool, x: &Bits, s: &Bits, m: usize) -> anyhow::Result<Bits>
         });
     }
     let run = |e: Engine| -> anyhow::Result<Bits> {
-        let plan: Box<dyn Extractor> = if modified {
-            Box::new(ModifiedToeplitz::with_engine(n, m, e)?)
+        let family = if modified {
+            Family::ModifiedToeplitz
         } else {
-            Box::new(Toeplitz::with_engine(n, m, e)?)
+            Family::Toeplitz
         };
+        let plan = ExtractorSpec { family, n, m }.build(e)?;
         let mut y = Bits::zeros(m);
         plan.extract(x, s, &mut y);
         Ok(y)

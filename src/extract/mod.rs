@@ -11,14 +11,18 @@
 //! `spec/conventions.md`; each extractor has a slow, obviously correct twin in
 //! [`reference`] that the tests compare it with.
 
+#![forbid(unsafe_code)]
+
 pub mod modified_toeplitz;
 pub mod reference;
+pub mod spec;
 pub mod toeplitz;
 pub mod trevisan;
 pub mod two_source;
 pub mod whole_run;
 
 pub use modified_toeplitz::ModifiedToeplitz;
+pub use spec::ExtractorSpec;
 pub use toeplitz::Toeplitz;
 pub use two_source::{TwoSource, TwoSourceError};
 

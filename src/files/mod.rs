@@ -9,6 +9,8 @@
 //! Nothing here knows about extractors, seeds or the ledger; `ledger`,
 //! `seed` and `pipeline` all build on it.
 
+#![forbid(unsafe_code)]
+
 pub mod atomic;
 #[doc(hidden)]
 pub mod fault;

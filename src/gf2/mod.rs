@@ -6,6 +6,7 @@
 //!
 //! * [`clmul`]: 64 x 64 -> 128 kernels (portable, PCLMULQDQ, VPCLMULQDQ) and
 //!   run-time detection.
+//! * [`platform`]: the one CPU-feature detection of the process.
 //! * [`karatsuba`]: full products and the word-level middle product.
 //! * [`middle`]: the Toeplitz window `[n-1, n+m-1)` of `S(z) X(z)`, planned
 //!   once per size, with the seed prepared once.
@@ -20,8 +21,10 @@ pub mod karatsuba;
 pub mod middle;
 #[doc(hidden)]
 pub mod outside;
+pub mod platform;
 pub mod reference;
 pub mod window;
 
 pub use clmul::Backend;
+pub use platform::Platform;
 pub mod field;

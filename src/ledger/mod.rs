@@ -22,6 +22,8 @@
 //! a kill in the middle of a write can, and `ledger repair` then cuts the
 //! unterminated last line (nothing else, and only past the head file).
 
+#![forbid(unsafe_code)]
+
 pub mod error;
 pub mod record;
 pub mod state;

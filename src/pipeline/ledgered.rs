@@ -302,7 +302,14 @@ pub fn execute(
         }
     }
     fault::point("after-reserve");
-    let report = match run.execute_replacing(replace, progress) {
+    // The input is digested while it is hashed: if it is not the string
+    // reserved (it changed since), the output is not renamed and the use
+    // is abandoned (still charged).
+    let expected = Some((
+        spec.input_digest.as_str(),
+        "the digest reserved for this use",
+    ));
+    let report = match run.execute_checked(replace, expected, progress) {
         Ok(r) => {
             stage.store(OUTPUT, Ordering::SeqCst);
             r

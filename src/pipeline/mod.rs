@@ -7,8 +7,14 @@
 //! everything has been written and synced. Seeds are never written, printed
 //! or logged here.
 
+#![forbid(unsafe_code)]
+
+pub mod job;
 pub mod ledgered;
 pub mod receipt;
+pub mod security;
+pub mod seeds;
+pub mod two_source;
 
 use crate::bits::io::PackedFileSource;
 use crate::bits::io::{open_input, BitWriter, BlockReader};
@@ -65,19 +71,68 @@ impl Source {
         }
     }
 
-    fn reader(&self) -> Result<BlockReader<Box<dyn io::Read + Send + '_>>, BitsError> {
+    /// The blocks of the input: streamed from the file, or cut from the
+    /// bits already in memory (never re-packed and parsed again).
+    fn reader(&self) -> Result<Blocks<'_>, BitsError> {
         Ok(match self {
-            Source::File(f) => BlockReader::new(open_input(&f.path)?, &f.path, f.format, f.order),
-            Source::Memory { bits, name } => {
-                let bytes = bits.to_packed(BitOrder::Msb);
-                BlockReader::new(
-                    Box::new(io::Cursor::new(bytes)),
-                    name,
-                    Format::Packed,
-                    BitOrder::Msb,
-                )
-            }
+            Source::File(f) => Blocks::File(BlockReader::new(
+                open_input(&f.path)?,
+                &f.path,
+                f.format,
+                f.order,
+            )),
+            Source::Memory { bits, .. } => Blocks::Memory { bits, pos: 0 },
         })
+    }
+}
+
+/// Consecutive blocks of a run's input.
+enum Blocks<'a> {
+    File(BlockReader<Box<dyn io::Read + Send + 'a>>),
+    Memory { bits: &'a Bits, pos: usize },
+}
+
+impl Blocks<'_> {
+    /// As [`BlockReader::next_block`].
+    fn next_block(&mut self, out: &mut Bits) -> Result<bool, BitsError> {
+        match self {
+            Blocks::File(r) => r.next_block(out),
+            Blocks::Memory { bits, pos } => {
+                let n = out.len();
+                if bits.len() - *pos < n {
+                    return Ok(false);
+                }
+                out.words_mut().fill(0);
+                crate::bits::copy_bits(bits.words(), *pos, out.words_mut(), 0, n);
+                out.clear_tail();
+                *pos += n;
+                Ok(true)
+            }
+        }
+    }
+
+    /// Bits left after the last full block.
+    fn remainder_bits(&self) -> usize {
+        match self {
+            Blocks::File(r) => r.remainder_bits(),
+            Blocks::Memory { bits, pos } => bits.len() - pos,
+        }
+    }
+
+    /// Bits decoded so far.
+    fn bits_available(&self) -> u64 {
+        match self {
+            Blocks::File(r) => r.bits_available(),
+            Blocks::Memory { bits, .. } => bits.len() as u64,
+        }
+    }
+
+    /// Bytes of the file read so far (for error offsets).
+    fn bytes_read(&self) -> u64 {
+        match self {
+            Blocks::File(r) => r.bytes_read(),
+            Blocks::Memory { bits, .. } => (bits.len() as u64).div_ceil(8),
+        }
     }
 }
 
@@ -108,6 +163,12 @@ pub struct Report {
     pub trailing_bits_unused: u64,
     /// Output bits written.
     pub output_bits: u64,
+    /// The data digest (`spec/conventions.md`) of the input bits the run
+    /// was asked for (`input_bits`, or the whole input held in memory),
+    /// computed from the very bits that were hashed, in the same pass.
+    /// Private: never printed.
+    #[serde(skip)]
+    pub input_digest: Option<String>,
 }
 
 /// Errors of a run.
@@ -130,6 +191,16 @@ pub enum Error {
     /// A whole-run block cannot be planned or read.
     #[error(transparent)]
     WholeRun(Box<crate::extract::whole_run::Error>),
+    /// The input read while hashing is not the one expected (its data
+    /// digest differs from the one given beforehand: the file changed, or
+    /// is not the certified or reserved string); nothing was written.
+    #[error("{}: the data digest of the bits hashed differs from the one expected ({expected_for}): the input changed or is not that string; nothing was written", path.display())]
+    DigestDiffers {
+        /// The input path.
+        path: PathBuf,
+        /// What the expected digest came from.
+        expected_for: String,
+    },
     /// The input holds no full block.
     #[error("{path}: the input holds {available} bits, fewer than one block of {block} bits; nothing was written")]
     NoBlock {
@@ -256,6 +327,20 @@ impl Run<'_> {
         replace: Replace,
         progress: impl FnMut(u64),
     ) -> Result<Report, Error> {
+        self.execute_checked(replace, None, progress)
+    }
+
+    /// As [`Run::execute_replacing`], and when `expected` names a data
+    /// digest (with what it came from, for the message), refuses to rename
+    /// the output unless the bits hashed have that digest: the input is
+    /// read once, digested while it is hashed. Needs `input_bits` (or an
+    /// input in memory) so the digest's length is known up front.
+    pub fn execute_checked(
+        &self,
+        replace: Replace,
+        expected: Option<(&str, &str)>,
+        progress: impl FnMut(u64),
+    ) -> Result<Report, Error> {
         let out_err = |e: io::Error| Error::Output {
             path: self.output.path.clone(),
             source: e,
@@ -270,6 +355,14 @@ impl Run<'_> {
                 ))
             })
         })?;
+        if let Some((digest, what)) = expected {
+            if report.input_digest.as_deref() != Some(digest) {
+                return Err(Error::DigestDiffers {
+                    path: self.input.name().to_path_buf(),
+                    expected_for: what.to_string(),
+                });
+            }
+        }
         fault::point("during-write");
         sink.finish().map_err(out_err)?;
         fault::point("after-rename");
@@ -369,6 +462,14 @@ impl Run<'_> {
             Source::File(_) => self.input_bits,
         };
         let max_blocks = input_bits.map(|t| t / n as u64);
+        // The input's data digest, from the bits hashed (one pass).
+        let mut digest = input_bits.map(|t| {
+            BitWriter::new(
+                DigestSink(crate::bits::digest::DataDigest::new(t)),
+                Format::Packed,
+                BitOrder::Msb,
+            )
+        });
         let bound = self.extractor.with_seed(self.seed);
 
         let threads = rayon::current_num_threads().max(1);
@@ -393,6 +494,11 @@ impl Run<'_> {
                     break;
                 }
                 filled += 1;
+            }
+            if let Some(d) = digest.as_mut() {
+                for x in &inputs[..filled] {
+                    d.write_bits(x).map_err(BitsError::from)?;
+                }
             }
             if filled > 0 {
                 let before = report.blocks * n as u64;
@@ -426,10 +532,17 @@ impl Run<'_> {
                     .in_file(self.input.name())
                     .into());
                 }
+                if let Some(d) = digest.as_mut() {
+                    d.write_bits(&tail).map_err(BitsError::from)?;
+                }
                 rest
             }
             None => reader.remainder_bits() as u64,
         };
+        if let Some(d) = digest {
+            let sink = d.finish().map_err(BitsError::from)?;
+            report.input_digest = Some(sink.0.finish_hex());
+        }
         if report.blocks == 0 {
             return Err(Error::NoBlock {
                 path: self.input.name().to_path_buf(),
@@ -504,7 +617,10 @@ impl Run<'_> {
         );
         let engine = self.extractor.engine().unwrap_or(Engine::Auto);
         let plan = WholeRun::new(family, n, m, engine, memory_limit())?;
-        let mut input = PackedFileSource::open(path, n, order).map_err(Error::Input)?;
+        let mut file = PackedFileSource::open(path, n, order).map_err(Error::Input)?;
+        // The input's data digest (of all `total` bits) from the words the
+        // run reads, as far as its first pass reads them in order.
+        let mut input = DigestingSource::new(&mut file, total);
         let mut seed = WordsSource::new(self.seed.words(), self.seed.len() as u64);
         let work = plan.work_bits().max(1);
         let mut done = 0u64;
@@ -533,6 +649,7 @@ impl Run<'_> {
             }
             e => Error::from(e),
         })?;
+        let digest = input.finish(path, order).map_err(Error::Input)?;
         progress(n);
         Ok(Report {
             blocks: 1,
@@ -540,7 +657,86 @@ impl Run<'_> {
             input_bits_used: n,
             trailing_bits_unused: total - n,
             output_bits: m,
+            input_digest: Some(digest),
         })
+    }
+}
+
+/// A bit source that feeds the data digest (`spec/conventions.md`) of a
+/// string of `total` bits from the words read through it: a read that
+/// covers the next undigested word moves the digest on, so a first pass
+/// that reads the source from its start digests it while hashing (the
+/// Toeplitz whole run does). What no read covered in order (the tail of a
+/// modified Toeplitz block, read before its head; the bits after the block)
+/// is read again by [`finish`](Self::finish).
+struct DigestingSource<'a> {
+    inner: &'a mut dyn crate::bits::source::BitSource,
+    digest: crate::bits::digest::DataDigest,
+    total: u64,
+    /// Words `0 .. next` are digested.
+    next: u64,
+}
+
+impl<'a> DigestingSource<'a> {
+    fn new(inner: &'a mut dyn crate::bits::source::BitSource, total: u64) -> Self {
+        DigestingSource {
+            inner,
+            digest: crate::bits::digest::DataDigest::new(total),
+            total,
+            next: 0,
+        }
+    }
+
+    /// Feeds words (bit `i` of word `w` is string bit `64 w + i`) as packed
+    /// MSB-first bytes, at most `limit` bytes.
+    fn feed(&mut self, words: &[u64], limit: u64) {
+        let mut bytes = Vec::with_capacity(words.len() * 8);
+        for w in words {
+            bytes.extend_from_slice(&w.to_le_bytes().map(u8::reverse_bits));
+        }
+        bytes.truncate(limit.min(bytes.len() as u64) as usize);
+        self.digest.update(&bytes);
+    }
+
+    /// Digests what the reads did not cover, from the file at `path`, and
+    /// returns the digest.
+    fn finish(mut self, path: &Path, order: BitOrder) -> Result<String, BitsError> {
+        use crate::bits::source::BitSource;
+        let words = self.total.div_ceil(64);
+        if self.next < words {
+            let mut file = PackedFileSource::open(path, self.total, order)?;
+            let mut buf = vec![0u64; 1 << 17];
+            while self.next < words {
+                let k = (words - self.next).min(buf.len() as u64) as usize;
+                file.read_words(self.next, &mut buf[..k])
+                    .map_err(|e| BitsError::from(e).in_file(path))?;
+                let limit = self.total.div_ceil(8) - self.next * 8;
+                self.feed(&buf[..k], limit);
+                self.next += k as u64;
+            }
+        }
+        Ok(self.digest.finish_hex())
+    }
+}
+
+impl crate::bits::source::BitSource for DigestingSource<'_> {
+    fn bits(&self) -> u64 {
+        self.inner.bits()
+    }
+
+    fn read_words(&mut self, first: u64, out: &mut [u64]) -> io::Result<()> {
+        self.inner.read_words(first, out)?;
+        // Only whole words of the source are digested here (the source
+        // reads zeros past its end, the string need not).
+        let full = self.inner.bits() / 64;
+        let end = (first + out.len() as u64).min(full);
+        if first <= self.next && self.next < end {
+            let from = (self.next - first) as usize;
+            let to = (end - first) as usize;
+            self.feed(&out[from..to], u64::MAX);
+            self.next = end;
+        }
+        Ok(())
     }
 }
 

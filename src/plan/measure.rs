@@ -56,18 +56,9 @@ impl ThroughputModel for Calibration {
     }
 }
 
+/// Fixed timing data (the crate's one test generator).
 fn words(seed: u64, n: usize) -> Bits {
-    let mut x = seed | 1;
-    let w = (0..n.div_ceil(64))
-        .map(|_| {
-            // xorshift64*: fixed timing data (common practice)
-            x ^= x >> 12;
-            x ^= x << 25;
-            x ^= x >> 27;
-            x.wrapping_mul(0x2545_f491_4f6c_dd1d)
-        })
-        .collect();
-    Bits::from_words(w, n)
+    crate::bits::pseudo::bits(seed | 1, n)
 }
 
 /// Median seconds of `f` over runs within `budget` (at least 3 runs, at

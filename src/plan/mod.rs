@@ -21,6 +21,8 @@
 //! `n` is an input length, `m` an output length, `d` a seed length, `k` a
 //! smooth min-entropy in bits (real), every error a trace distance.
 
+#![forbid(unsafe_code)]
+
 mod error;
 
 pub mod compose;

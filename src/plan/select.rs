@@ -17,6 +17,7 @@ use super::compose::Budget;
 use super::lhl::{self, Family};
 use super::trevisan::{self, Design, OneBit, TrevisanInputs, TrevisanPlan};
 use super::{check_entropy, Error, ErrorKind};
+use crate::extract::spec::{ExtractorSpec, Family as SpecFamily};
 
 /// What the choice optimises.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Default, serde::Serialize)]
@@ -269,6 +270,41 @@ pub struct Planned {
     pub trevisan: Option<TrevisanPlan>,
     /// Why the row cannot be run in practice, if so (never chosen).
     pub impractical: Option<String>,
+}
+
+impl Planned {
+    /// The extractor this plan runs on blocks of `n` bits: the one
+    /// vocabulary of `crate::extract::spec` (the Trevisan integers with the
+    /// prime the search fixed).
+    pub fn spec(&self, construction: &Construction, n: u64) -> ExtractorSpec {
+        let family = match construction {
+            Construction::Hash {
+                family: Family::Toeplitz,
+            } => SpecFamily::Toeplitz,
+            Construction::Hash {
+                family: Family::ModifiedToeplitz,
+            } => SpecFamily::ModifiedToeplitz,
+            Construction::Trevisan { .. } => {
+                let p = self
+                    .trevisan
+                    .as_ref()
+                    .expect("a planned Trevisan row carries its parameters");
+                let f = &p.function;
+                SpecFamily::Trevisan {
+                    one_bit: f.one_bit,
+                    design: f.design,
+                    field_bits: f.l.unwrap_or(0) as usize,
+                    design_factor: p.c,
+                    prime: Some(f.q),
+                }
+            }
+        };
+        ExtractorSpec {
+            family,
+            n: n as usize,
+            m: self.m as usize,
+        }
+    }
 }
 
 /// Seed length above which a row is impractical: 2^36 bits (8 GiB; common

@@ -11,25 +11,9 @@
 use super::compose::Budget;
 use super::{check_entropy, Error, ErrorKind};
 
-/// The one-bit extractor (`spec/trevisan.md` 3).
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, serde::Serialize)]
-#[serde(rename_all = "lowercase")]
-pub enum OneBit {
-    /// Polynomial hashing: Reed-Solomon over GF(2^l), then Hadamard (3.1).
-    Ph,
-    /// Inner product, seed n bits (3.2).
-    Ip,
-}
-
-/// The weak design (`spec/trevisan.md` 4).
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, serde::Serialize)]
-#[serde(rename_all = "lowercase")]
-pub enum Design {
-    /// Graphs of polynomials over GF(q), r = R_D (4.1).
-    Poly,
-    /// Groups of POLY designs on disjoint seed slices, r = 1 (4.2).
-    Block,
-}
+/// The one-bit extractor (`spec/trevisan.md` 3) and the weak design (4):
+/// the extractor's own vocabulary, so a plan names the function it runs.
+pub use crate::extract::trevisan::{DesignKind as Design, OneBit};
 
 /// The integers that define a Trevisan-type extractor (`spec/trevisan.md`
 /// 6, "What defines the function"); everything else (D, widths, groups, d)
@@ -108,26 +92,16 @@ impl TrevisanPlan {
     }
 }
 
-/// Trial-division primality test (`spec/trevisan.md` 4: "primes below 2^32
-/// can be found by trial division", common practice).
+// The design maths exists once, in the extractor (`extract::trevisan::design`):
+// the planner computes its seed lengths and overlaps with the very code that
+// builds the sets.
+use crate::extract::trevisan::design::{self as ext, Design as ExtDesign};
+use crate::extract::trevisan::ErrorKind as ExtKind;
+
+/// Primality by trial division (the extractor's own test; `spec/trevisan.md`
+/// 4: "primes below 2^32 can be found by trial division", common practice).
 pub fn is_prime(x: u64) -> bool {
-    if x < 2 {
-        return false;
-    }
-    if x < 4 {
-        return true;
-    }
-    if x.is_multiple_of(2) || x.is_multiple_of(3) {
-        return false;
-    }
-    let mut i = 5u64;
-    while i.saturating_mul(i) <= x {
-        if x.is_multiple_of(i) || x.is_multiple_of(i + 2) {
-            return false;
-        }
-        i += 6;
-    }
-    true
+    ext::is_prime(x)
 }
 
 /// The smallest prime `>= x` (`spec/trevisan.md` 4).
@@ -139,152 +113,104 @@ pub fn next_prime(x: u64) -> u64 {
     p
 }
 
-fn binom(t: u64, a: u64) -> u128 {
-    let mut r: u128 = 1;
-    for i in 0..a as u128 {
-        r = r * (t as u128 - i) / (i + 1);
-    }
-    r
-}
-
-fn pow(q: u64, e: u32) -> Option<u128> {
-    (q as u128).checked_pow(e)
-}
-
 /// `A_h = sum over a = 0 .. min(h, t) of binom(t, a) q^(h - a)`
 /// (`spec/trevisan.md` 4, derived there; `N_D = A_D` in 4.2). `None` on
 /// overflow of 128 bits.
 pub fn a_h(t: u64, q: u64, h: u32) -> Option<u128> {
-    let mut s: u128 = 0;
-    for a in 0..=u64::from(h).min(t) {
-        let term = binom(t, a).checked_mul(pow(q, h - a as u32)?)?;
-        s = s.checked_add(term)?;
-    }
-    Some(s)
+    ext::a_h(t, q, u64::from(h))
 }
 
 /// `R_D = A_D / q^D = sum over a = 0 .. min(D, t) of binom(t, a) q^-a`
 /// (`spec/trevisan.md` 4): the overlap r of the POLY design (D4, derived
 /// there).
 pub fn r_d(t: u64, q: u64, degree: u32) -> f64 {
-    let mut s = 0.0;
-    let mut term = 1.0f64; // binom(t, a) / q^a
-    for a in 0..=u64::from(degree).min(t) {
-        if a > 0 {
-            term *= (t - a + 1) as f64 / (a as f64 * q as f64);
-        }
-        s += term;
-    }
-    s
+    ext::r_d(t, q, u64::from(degree))
 }
 
-/// The POLY design for m sets of size t over GF(q) (`spec/trevisan.md`
-/// 4.1): D = the smallest D >= 0 with `q^(D+1) >= m`, refused when
-/// `D > t - 1`; width `w = q` (D >= 1) or `m` (D = 0); `d = t w`;
-/// `r = R_D`.
-pub fn poly_design(m: u64, t: u64, q: u64) -> Result<DesignShape, Error> {
-    if m == 0 {
-        return Err(Error::new("m", ErrorKind::Zero));
-    }
-    if t == 0 {
-        return Err(Error::new("t", ErrorKind::Zero));
-    }
-    let mut degree: u32 = 0;
-    while pow(q, degree + 1).is_some_and(|p| p < m as u128) {
-        degree += 1;
-    }
-    if u64::from(degree) > t - 1 {
-        return Err(Error::new(
+/// The planner's error for a design the extractor refuses.
+fn design_error(e: crate::extract::trevisan::Error, m: u64, t: u64, q: u64) -> Error {
+    match e.kind() {
+        ExtKind::TooSmall { value: 0, .. } if e.field() == "output-bits" => {
+            Error::new("m", ErrorKind::Zero)
+        }
+        ExtKind::TooSmall { value: 0, .. } => Error::new("t", ErrorKind::Zero),
+        ExtKind::TooManySets { .. } => Error::new(
             "m",
             ErrorKind::LengthOutsideFamily {
                 m,
-                max: pow(q, t as u32).map_or(u64::MAX, |p| p.min(u64::MAX as u128) as u64),
+                max: (q as u128)
+                    .checked_pow(t as u32)
+                    .map_or(u64::MAX, |p| p.min(u64::MAX as u128) as u64),
                 family: "POLY design (m <= q^t)",
             },
-        ));
+        ),
+        ExtKind::Overflow { .. } => Error::new("m", ErrorKind::TooLarge { what: "design" }),
+        _ => Error::new(
+            "q",
+            ErrorKind::InvalidLength {
+                n: q,
+                why: "the design needs a prime q >= t below 2^32",
+            },
+        ),
     }
-    let w = if degree >= 1 { q } else { m };
-    let d = t.checked_mul(w).ok_or(Error::new(
-        "m",
-        ErrorKind::TooLarge {
-            what: "seed length t w",
-        },
-    ))?;
-    let n_d = a_h(t, q, degree).ok_or(Error::new("m", ErrorKind::TooLarge { what: "N_D" }))?;
-    let q_d = pow(q, degree).ok_or(Error::new("m", ErrorKind::TooLarge { what: "q^D" }))?;
+}
+
+/// The derived quantities of the extractor's design.
+fn shape_of(d: &ExtDesign, m: u64, t: u64, q: u64) -> Result<DesignShape, Error> {
+    let degree = d.max_degree() as u32;
+    let (r, rm, groups) = match d.kind() {
+        Design::Poly => {
+            let n_d =
+                a_h(t, q, degree).ok_or(Error::new("m", ErrorKind::TooLarge { what: "N_D" }))?;
+            let q_d = (q as u128)
+                .checked_pow(degree)
+                .ok_or(Error::new("m", ErrorKind::TooLarge { what: "q^D" }))?;
+            (
+                r_d(t, q, degree),
+                n_d as f64 * m as f64 / q_d as f64,
+                Vec::new(),
+            )
+        }
+        Design::Block => (
+            1.0,
+            m as f64,
+            d.groups()
+                .iter()
+                .map(|g| Group {
+                    size: g.size,
+                    degree: g.degree as u32,
+                    width: g.width,
+                    offset: g.offset,
+                })
+                .collect(),
+        ),
+    };
     Ok(DesignShape {
         t,
         q,
         degree,
-        r: r_d(t, q, degree),
-        rm: n_d as f64 * m as f64 / q_d as f64,
-        d,
-        groups: Vec::new(),
+        r,
+        rm,
+        d: d.seed_bits(),
+        groups,
     })
 }
 
+/// The POLY design for m sets of size t over GF(q) (`spec/trevisan.md`
+/// 4.1), built by the extractor's own code: D = the smallest D >= 0 with
+/// `q^(D+1) >= m`, refused when `D > t - 1`; width `w = q` (D >= 1) or `m`
+/// (D = 0); `d = t w`; `r = R_D`.
+pub fn poly_design(m: u64, t: u64, q: u64) -> Result<DesignShape, Error> {
+    let d = ExtDesign::poly(m, t, q).map_err(|e| design_error(e, m, t, q))?;
+    shape_of(&d, m, t, q)
+}
+
 /// The BLOCK design (`spec/trevisan.md` 4.2, the group rule exactly as
-/// written there; r = 1 by D5, derived there).
+/// written there, built by the extractor's own code; r = 1 by D5, derived
+/// there).
 pub fn block_design(m: u64, t: u64, q: u64) -> Result<DesignShape, Error> {
-    if m == 0 {
-        return Err(Error::new("m", ErrorKind::Zero));
-    }
-    if t == 0 {
-        return Err(Error::new("t", ErrorKind::Zero));
-    }
-    let overflow = || {
-        Error::new(
-            "m",
-            ErrorKind::TooLarge {
-                what: "BLOCK design",
-            },
-        )
-    };
-    let mut done: u64 = 0;
-    let mut off: u64 = 0;
-    let mut groups = Vec::new();
-    while done < m {
-        let rem = m - done;
-        let mut best: u64 = 0;
-        let mut best_d: u32 = 0;
-        let mut dd: u32 = 0;
-        loop {
-            let q_d1 = pow(q, dd + 1).ok_or_else(overflow)?;
-            let q_d = pow(q, dd).ok_or_else(overflow)?;
-            let n_d = a_h(t, q, dd).ok_or_else(overflow)?;
-            let by_overlap = 1 + (rem as u128 - 1).checked_mul(q_d).ok_or_else(overflow)? / n_d;
-            let cap = (rem as u128).min(q_d1).min(by_overlap) as u64;
-            if cap > best {
-                best = cap;
-                best_d = dd;
-            }
-            if q_d1 >= rem as u128 || u64::from(dd) + 1 > t - 1 {
-                break;
-            }
-            dd += 1;
-        }
-        let w = if best_d >= 1 { q } else { best };
-        groups.push(Group {
-            size: best,
-            degree: best_d,
-            width: w,
-            offset: off,
-        });
-        done += best;
-        off = t
-            .checked_mul(w)
-            .and_then(|x| off.checked_add(x))
-            .ok_or_else(overflow)?;
-    }
-    Ok(DesignShape {
-        t,
-        q,
-        degree: groups.iter().map(|g| g.degree).max().unwrap_or(0),
-        r: 1.0,
-        rm: m as f64,
-        d: off,
-        groups,
-    })
+    let d = ExtDesign::block(m, t, q).map_err(|e| design_error(e, m, t, q))?;
+    shape_of(&d, m, t, q)
 }
 
 /// The field size l of PH for `n` input bits and a per-bit error

@@ -19,49 +19,9 @@ pub const CLASSICAL_LABEL: &str = "classical side information only";
 pub const MARKOV_LABEL: &str =
     "quantum side information in the Markov model, UNVERIFIED constants (recalled, not checked)";
 
-/// Whether n is a valid length: a prime with 2 as a primitive root modulo n,
-/// checked as `2^((n-1)/q) mod n != 1` for every prime q dividing n - 1
-/// (`spec/hashing-and-composition.md` 6.1 and 9 item 11; \[DEOR04\], memory).
-pub fn valid_n(n: u64) -> bool {
-    if n < 3 || !super::trevisan::is_prime(n) {
-        return false;
-    }
-    let mut rest = n - 1;
-    let mut q = 2u64;
-    while q * q <= rest {
-        if rest.is_multiple_of(q) {
-            if pow_mod(2, (n - 1) / q, n) == 1 {
-                return false;
-            }
-            while rest.is_multiple_of(q) {
-                rest /= q;
-            }
-        }
-        q += 1;
-    }
-    !(rest > 1 && pow_mod(2, (n - 1) / rest, n) == 1)
-}
-
-fn pow_mod(mut b: u64, mut e: u64, n: u64) -> u64 {
-    let n = n as u128;
-    let mut r: u128 = 1;
-    let mut b128 = b as u128 % n;
-    while e > 0 {
-        if e & 1 == 1 {
-            r = r * b128 % n;
-        }
-        b128 = b128 * b128 % n;
-        e >>= 1;
-    }
-    b = r as u64;
-    b
-}
-
-/// The largest valid n not above `limit`, if any
-/// (`spec/hashing-and-composition.md` 6.1 and 9 item 11).
-pub fn largest_n(limit: u64) -> Option<u64> {
-    (3..=limit).rev().find(|&n| valid_n(n))
-}
+/// The valid lengths of the extractor (6.1): the rule lives with the
+/// extractor.
+pub use crate::extract::two_source::{largest_n, valid_n};
 
 /// Min-entropy left after dropping bits: `max(0, k - dropped)`
 /// (`spec/hashing-and-composition.md` 1.5 and 9 item 15; chain rule, \[R05\]

@@ -24,6 +24,8 @@
 //!   journal does not know (the ledger refuses to start a new journal
 //!   beside a non-empty store).
 
+#![forbid(unsafe_code)]
+
 use crate::bits::{BitOrder, Bits};
 use crate::files::{self, AtomicFile, Kind, Replace};
 use crate::ledger::{self, Body, Ledger, State};
@@ -70,11 +72,10 @@ pub enum Error {
         expected: &'static str,
     },
     /// Recycling without the assertion of 4.2.
-    #[error("a seed cut from an earlier output needs the recycling assertion (hashing spec 4.2): {condition}")]
-    NotAsserted {
-        /// The condition.
-        condition: &'static str,
-    },
+    /// (The condition's text is `plan::compose::RECYCLING_CONDITION`; the
+    /// caller shows it where the assertion is asked for.)
+    #[error("a seed cut from an earlier output needs the recycling assertion (hashing spec 4.2)")]
+    NotAsserted,
     /// The bits are already registered (or overlap a registered seed).
     #[error("these seed bits are already registered as seed {seed} (created at line {line}){how}; registering them again would let their uses escape that seed's budget (hashing spec 4.3); refused")]
     AlreadyRegistered {
@@ -445,9 +446,7 @@ impl Store {
                 asserted,
             } => {
                 if !asserted {
-                    return Err(Error::NotAsserted {
-                        condition: crate::plan::compose::RECYCLING_CONDITION,
-                    });
+                    return Err(Error::NotAsserted);
                 }
                 if !(eps_seed.is_finite() && (0.0..1.0).contains(&eps_seed)) {
                     return Err(Error::Bad {

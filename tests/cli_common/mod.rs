@@ -2,31 +2,23 @@
 
 use sluice::bits::Bits;
 use std::path::Path;
-use std::process::{Command, Output};
+use std::process::Output;
 
-const BIN: &str = env!("CARGO_BIN_EXE_sluice");
+#[path = "../cmd_common/mod.rs"]
+mod cmd_common;
 
 /// Runs `sluice ARGS` in `dir` and returns its output.
 pub fn sluice(dir: &Path, args: &[&str]) -> Output {
-    Command::new(BIN)
-        .current_dir(dir)
-        .args(args)
-        .output()
-        .unwrap()
+    let mut c = cmd_common::command(args, Some(dir), None, "");
+    // As before the shared builder: the caller's environment is kept.
+    if let Ok(h) = std::env::var("SLUICE_TEST_HOOK") {
+        c.env("SLUICE_TEST_HOOK", h);
+    }
+    c.output().unwrap()
 }
 
-/// `n` deterministic test bits (xorshift64, common practice for test data).
+/// `n` deterministic test bits (the crate's one test generator,
+/// `sluice::bits::pseudo`).
 pub fn pseudo(seed: u64, n: usize) -> Bits {
-    let mut s = seed | 1;
-    Bits::from_words(
-        (0..n.div_ceil(64))
-            .map(|_| {
-                s ^= s << 13;
-                s ^= s >> 7;
-                s ^= s << 17;
-                s
-            })
-            .collect(),
-        n,
-    )
+    sluice::bits::pseudo::bits(seed | 1, n)
 }

@@ -9,8 +9,11 @@ use std::process::{Child, Command, Output, Stdio};
 /// against another build, e.g. to see them fail on an older one), else
 /// this build's.
 pub fn bin() -> String {
-    std::env::var("SLUICE_TEST_BIN").unwrap_or_else(|_| env!("CARGO_BIN_EXE_sluice").to_string())
+    cmd_common::bin()
 }
+
+#[path = "../cmd_common/mod.rs"]
+mod cmd_common;
 
 /// Runs `sluice ARGS` in `dir` with the ledger `ledger` and the test hook
 /// `hook` (empty: none).
@@ -22,14 +25,7 @@ pub fn run(dir: &Path, ledger: &Path, hook: &str, args: &[&str]) -> Output {
 
 /// The command, not started.
 pub fn command(dir: &Path, ledger: &Path, hook: &str, args: &[&str]) -> Command {
-    let mut c = Command::new(bin());
-    c.current_dir(dir).args(args).env("SLUICE_LEDGER", ledger);
-    if hook.is_empty() {
-        c.env_remove("SLUICE_TEST_HOOK");
-    } else {
-        c.env("SLUICE_TEST_HOOK", hook);
-    }
-    c
+    cmd_common::command(args, Some(dir), Some(ledger), hook)
 }
 
 /// Starts `sluice ARGS` with piped output.
@@ -94,23 +90,8 @@ pub fn temp_files(dir: &Path) -> Vec<PathBuf> {
     out
 }
 
-/// Seeded xorshift64 (common practice for test data; seeded so a failure
-/// can be replayed).
-pub struct Rng(pub u64);
-impl Rng {
-    pub fn next(&mut self) -> u64 {
-        self.0 ^= self.0 << 13;
-        self.0 ^= self.0 >> 7;
-        self.0 ^= self.0 << 17;
-        self.0
-    }
-    pub fn below(&mut self, n: u64) -> u64 {
-        self.next() % n
-    }
-    pub fn bytes(&mut self, n: usize) -> Vec<u8> {
-        (0..n).map(|_| self.next() as u8).collect()
-    }
-}
+/// The crate's one test generator (seeded so a failure can be replayed).
+pub use sluice::bits::pseudo::Pseudo as Rng;
 
 /// Per use of [`extract_args`]: n = 512, k = 400, target 1e-9; the planner
 /// picks m = 340, so the charge is eps_ext = 2^(-(k - m)/2) = 2^-30

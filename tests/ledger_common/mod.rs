@@ -2,9 +2,12 @@
 #![allow(dead_code)]
 
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::process::Output;
 
 pub const BIN: &str = env!("CARGO_BIN_EXE_sluice");
+
+#[path = "../cmd_common/mod.rs"]
+mod cmd_common;
 
 /// Per use of the runs below: n = 512, k = 400, target 1e-9; the planner
 /// picks m = 340, so the charge is the leftover hash lemma's
@@ -12,10 +15,7 @@ pub const BIN: &str = env!("CARGO_BIN_EXE_sluice");
 pub const CHARGE: f64 = 9.313225746154785e-10;
 
 pub fn sluice(ledger: &Path, args: &[&str]) -> Output {
-    Command::new(BIN)
-        .args(args)
-        .env("SLUICE_LEDGER", ledger)
-        .env_remove("SLUICE_TEST_HOOK")
+    cmd_common::command(args, None, Some(ledger), "")
         .output()
         .expect("run sluice")
 }
@@ -30,20 +30,9 @@ pub fn ok(ledger: &Path, args: &[&str]) -> String {
     String::from_utf8(o.stdout).unwrap()
 }
 
-/// Small xorshift generator for timing and contents (seeded, so a failure
-/// can be replayed).
-pub struct Rng(pub u64);
-impl Rng {
-    pub fn next(&mut self) -> u64 {
-        self.0 ^= self.0 << 13;
-        self.0 ^= self.0 >> 7;
-        self.0 ^= self.0 << 17;
-        self.0
-    }
-    pub fn below(&mut self, n: u64) -> u64 {
-        self.next() % n
-    }
-}
+/// The crate's one test generator, for timing and contents (seeded, so a
+/// failure can be replayed).
+pub use sluice::bits::pseudo::Pseudo as Rng;
 
 /// Writes 64 distinct pseudo-random bytes (512 bits) as a raw file.
 pub fn raw_file(dir: &Path, name: &str, rng: &mut Rng) -> PathBuf {

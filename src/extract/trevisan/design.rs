@@ -13,7 +13,8 @@
 use super::{Error, ErrorKind};
 
 /// Which weak design.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
 pub enum DesignKind {
     /// Graphs of polynomials over GF(q) (section 4.1), r = R_D.
     Poly,

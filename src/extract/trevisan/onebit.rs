@@ -19,7 +19,8 @@ use crate::bits::{copy_bits, Bits};
 use crate::gf2::field::Field;
 
 /// Which one-bit extractor.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
 pub enum OneBit {
     /// Polynomial hashing: Reed-Solomon over GF(2^l), then Hadamard (3.1).
     Ph,

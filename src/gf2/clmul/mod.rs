@@ -1,6 +1,7 @@
 //! Carry-less multiplication kernels and the choice between them.
 //!
-//! [`Backend::detect`] picks the widest kernel the CPU supports, once; plans
+//! [`Backend::detect`] picks the widest kernel the CPU supports (from the
+//! process's one [`Platform`](super::Platform)); plans
 //! store the result and every call is a plain `match`. Every backend gives the
 //! same bits as [`portable`], which the tests check on random operands.
 
@@ -31,15 +32,7 @@ impl Backend {
     /// features `no_vpclmul`, which disables both VPCLMULQDQ backends, and
     /// `no_pclmul`).
     pub fn detect() -> Backend {
-        if Backend::Vpclmul.is_supported() {
-            Backend::Vpclmul
-        } else if Backend::Vpclmul256.is_supported() {
-            Backend::Vpclmul256
-        } else if Backend::Pclmul.is_supported() {
-            Backend::Pclmul
-        } else {
-            Backend::Portable
-        }
+        super::Platform::get().backend()
     }
 
     /// Every backend this CPU supports, portable first.
@@ -57,32 +50,7 @@ impl Backend {
 
     /// Whether this CPU can run the backend.
     pub fn is_supported(self) -> bool {
-        match self {
-            Backend::Portable => true,
-            #[cfg(target_arch = "x86_64")]
-            Backend::Pclmul => {
-                !cfg!(feature = "no_pclmul")
-                    && !cfg!(miri)
-                    && std::is_x86_feature_detected!("pclmulqdq")
-                    && std::is_x86_feature_detected!("sse2")
-            }
-            #[cfg(target_arch = "x86_64")]
-            Backend::Vpclmul => {
-                !cfg!(feature = "no_vpclmul")
-                    && Backend::Pclmul.is_supported()
-                    && std::is_x86_feature_detected!("vpclmulqdq")
-                    && std::is_x86_feature_detected!("avx512f")
-            }
-            #[cfg(target_arch = "x86_64")]
-            Backend::Vpclmul256 => {
-                !cfg!(feature = "no_vpclmul")
-                    && Backend::Pclmul.is_supported()
-                    && std::is_x86_feature_detected!("vpclmulqdq")
-                    && std::is_x86_feature_detected!("avx2")
-            }
-            #[cfg(not(target_arch = "x86_64"))]
-            _ => false,
-        }
+        super::Platform::get().supports(self)
     }
 
     /// Short lower-case name, as used on the command line and in benches.
