@@ -628,3 +628,96 @@ fn device_independent_seed_is_fresh_per_run_unless_asserted() {
     let log = ok(&l, &["ledger", "log", "--seed", &id]);
     assert!(log.contains("cross-run condition asserted"), "{log}");
 }
+
+/// Makes a named pipe at `p` and writes `bytes` into it from a thread (the
+/// open blocks until the reader opens the pipe).
+#[cfg(unix)]
+fn pipe_with(p: &std::path::Path, bytes: Vec<u8>) -> std::thread::JoinHandle<()> {
+    let st = std::process::Command::new("mkfifo")
+        .arg(p)
+        .status()
+        .unwrap();
+    assert!(st.success(), "mkfifo");
+    let p = p.to_path_buf();
+    std::thread::spawn(move || {
+        use std::io::Write;
+        let mut f = std::fs::OpenOptions::new().write(true).open(&p).unwrap();
+        // The reader may stop early (a refusal); a broken pipe is fine.
+        let _ = f.write_all(&bytes);
+    })
+}
+
+/// A ledgered run reads its input once (digested while it is hashed): a
+/// named pipe, which can be read only once, gives the same output and the
+/// same recorded digest as the file it carries. A pipe that ends early is
+/// refused before anything is reserved: the journal is unchanged.
+#[cfg(unix)]
+#[test]
+fn a_ledgered_run_reads_its_input_once() {
+    let dir = tempfile::tempdir().unwrap();
+    let l = dir.path().join("L");
+    let mut rng = Rng(23);
+    let raw = raw_file(dir.path(), "raw.bin", &mut rng);
+    ok(
+        &l,
+        &[
+            "ledger",
+            "commit-raw",
+            raw.to_str().unwrap(),
+            "--origin",
+            "rig",
+        ],
+    );
+    let seed = new_seed(&l, "600", "1e-6");
+    let bytes = std::fs::read(&raw).unwrap();
+    let (o1, o2) = (dir.path().join("o1.bin"), dir.path().join("o2.bin"));
+    ok(
+        &l,
+        &extract_args(raw.to_str().unwrap(), o1.to_str().unwrap(), &seed),
+    );
+    let pipe = dir.path().join("pipe");
+    let writer = pipe_with(&pipe, bytes.clone());
+    let mut args = extract_args(pipe.to_str().unwrap(), o2.to_str().unwrap(), &seed);
+    args.extend(["--input-bits", "512", "--repeat-reason", "read-once check"]);
+    ok(&l, &args);
+    writer.join().unwrap();
+    assert_eq!(std::fs::read(&o1).unwrap(), std::fs::read(&o2).unwrap());
+    let digests: Vec<serde_json::Value> = {
+        let v: serde_json::Value =
+            serde_json::from_str(&ok(&l, &["ledger", "export", "--json"])).unwrap();
+        v["records"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter(|r| r["kind"] == "use-reserved")
+            .map(|r| r["input_digest"].clone())
+            .collect()
+    };
+    assert_eq!(digests.len(), 2);
+    assert_eq!(digests[0], digests[1], "the pipe's digest is the file's");
+    // Half the bits: refused at the end of the pipe, nothing reserved.
+    std::fs::remove_file(&pipe).unwrap();
+    let writer = pipe_with(&pipe, bytes[..32].to_vec());
+    let o3 = dir.path().join("o3.bin");
+    let before = journal(&l);
+    let mut args = extract_args(pipe.to_str().unwrap(), o3.to_str().unwrap(), &seed);
+    args.extend(["--input-bits", "512", "--repeat-reason", "short pipe"]);
+    let e = fail(&l, &args);
+    writer.join().unwrap();
+    assert!(
+        e.contains("ends after 256 bits") && e.contains("nothing was reserved"),
+        "{e}"
+    );
+    assert_eq!(
+        journal(&l),
+        before,
+        "a run refused before reserving leaves the journal unchanged"
+    );
+    assert!(!o3.exists());
+    let temps: Vec<_> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .filter_map(|e| e.ok())
+        .filter(|e| sluice::files::atomic::is_temp_name(&e.file_name().to_string_lossy()))
+        .collect();
+    assert!(temps.is_empty(), "temporary files left: {temps:?}");
+}

@@ -162,6 +162,26 @@ impl State {
     /// Checks that `body` may follow the records replayed so far, at `line`
     /// written at `time`.
     pub fn check(&self, line: u64, time: u64, body: &Body) -> Result<(), Rule> {
+        self.check_parts(line, time, body, true)
+    }
+
+    /// Checks a use reservation against every rule that does not depend on
+    /// its raw data (seed known and not retired, seed length, error, the
+    /// device-independent single use, the budget), and against the raw
+    /// data's rules too when `with_input` (its digest is known): what a run
+    /// checks before its work, so a refusal costs no hashing. The rules are
+    /// checked again, all of them, when the reservation is appended.
+    pub fn check_use(
+        &self,
+        line: u64,
+        time: u64,
+        body: &Body,
+        with_input: bool,
+    ) -> Result<(), Rule> {
+        self.check_parts(line, time, body, with_input)
+    }
+
+    fn check_parts(&self, line: u64, time: u64, body: &Body, with_input: bool) -> Result<(), Rule> {
         if line > 1 && time < self.last_time {
             return Err(Rule::TimeBackwards {
                 time,
@@ -268,7 +288,9 @@ impl State {
                 ..
             } => {
                 check_form("use", use_id, false)?;
-                check_form("input_digest", input_digest, true)?;
+                if with_input {
+                    check_form("input_digest", input_digest, true)?;
+                }
                 if output.as_deref().is_some_and(|o| o.is_empty()) {
                     return Err(Rule::OutOfRange {
                         field: "output",
@@ -303,29 +325,31 @@ impl State {
                         expected: "a positive error",
                     });
                 }
-                let raw_line =
-                    *self
-                        .raw
-                        .get(input_digest)
-                        .ok_or_else(|| Rule::RawNotCommitted {
-                            digest: input_digest.clone(),
-                        })?;
-                if let Some(d) = s.disclosed_line {
-                    if d < raw_line {
-                        return Err(Rule::DisclosedBeforeRaw {
-                            seed: seed.clone(),
-                            digest: input_digest.clone(),
-                            disclosed_line: d,
-                            raw_line,
-                        });
+                if with_input {
+                    let raw_line =
+                        *self
+                            .raw
+                            .get(input_digest)
+                            .ok_or_else(|| Rule::RawNotCommitted {
+                                digest: input_digest.clone(),
+                            })?;
+                    if let Some(d) = s.disclosed_line {
+                        if d < raw_line {
+                            return Err(Rule::DisclosedBeforeRaw {
+                                seed: seed.clone(),
+                                digest: input_digest.clone(),
+                                disclosed_line: d,
+                                raw_line,
+                            });
+                        }
                     }
-                }
-                if let Some(&l) = self.raw_used.get(input_digest) {
-                    if repeat_reason.as_deref().is_none_or(|r| r.trim().is_empty()) {
-                        return Err(Rule::RawAlreadyUsed {
-                            digest: input_digest.clone(),
-                            line: l,
-                        });
+                    if let Some(&l) = self.raw_used.get(input_digest) {
+                        if repeat_reason.as_deref().is_none_or(|r| r.trim().is_empty()) {
+                            return Err(Rule::RawAlreadyUsed {
+                                digest: input_digest.clone(),
+                                line: l,
+                            });
+                        }
                     }
                 }
                 if *device_independent && !cross_run_asserted {

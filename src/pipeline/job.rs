@@ -322,11 +322,22 @@ fn plan_run(
     if file.is_std() {
         return refuse("automatic extraction digests the input before hashing it, so it needs a file, not standard input");
     }
-    let available = count_bits(file)?;
     // The certificate fixes the string: its length, one block.
     let cert_n = match &sec.certificate {
         Some(p) => Some(super::security::read_certificate(p)?.1.string.length_bits),
         None => None,
+    };
+    // The input is read once, by the run. Its length is measured here only
+    // when nothing gives it and it costs no read (a packed regular file):
+    // otherwise a text file would be read twice and a pipe consumed. A
+    // shorter input than given is refused when the run reaches its end,
+    // before anything is reserved or renamed.
+    let regular = std::fs::metadata(&file.path).is_ok_and(|m| m.is_file());
+    let given = cert_n.or(job.input_bits);
+    let available = if given.is_some() && !(regular && file.format == Format::Packed) {
+        u64::MAX
+    } else {
+        count_bits(file)?
     };
     let total = match (cert_n, job.input_bits) {
         (Some(n), Some(t)) if t != n => {
@@ -514,7 +525,13 @@ pub fn resolve(
     // A packed file's length is known up front: refuse a length it cannot
     // hold before anything else (the stream check catches the other formats).
     if input.format == Format::Packed && !input.is_std() {
-        if let Ok(md) = std::fs::metadata(&input.path) {
+        if let Ok(md) = std::fs::metadata(&input.path).and_then(|m| {
+            if m.is_file() {
+                Ok(m)
+            } else {
+                Err(std::io::Error::other("not a regular file"))
+            }
+        }) {
             let have = md.len() * 8;
             if let Some(want) = l.input_bits.or(l.block_bits.map(|b| b as u64)) {
                 if want > have {
@@ -913,10 +930,13 @@ fn execute_ledgered(job: &Job, lu: &LedgerUse, obs: &mut dyn Observer) -> Result
         Some(b) => b,
         None => Store::os_bits(size(plan.seed_bits(), "the seed length")?)?,
     };
-    // Digest the input before anything is reserved: a refusal (not the
-    // certified string, raw data already used) charges nothing.
-    let input_digest = digest_prefix(&job.input, plan.total_bits)?;
-    check_certified(job, &plan, &input_digest)?;
+    // The input is read once, digested while it is hashed; a certified
+    // string's digest is known now and checked before anything is reserved
+    // (a different file charges nothing).
+    let certified_digest = plan
+        .certificate
+        .as_ref()
+        .map(|(_, cert, _)| cert.string.digest.clone());
     let r = resolve(&job.input, &layout, job.engine, Some(&seed_bits), None)?;
     let bar_total = r.bar_total();
     let run = Run {
@@ -952,7 +972,7 @@ fn execute_ledgered(job: &Job, lu: &LedgerUse, obs: &mut dyn Observer) -> Result
         ]
         .into_iter()
         .collect(),
-        input_digest: input_digest.clone(),
+        input_digest: certified_digest,
         blocks: plan.total_bits / n,
         seed_bits: r.plan.seed_bits() as u64,
         error: plan.seed_charge(),
@@ -964,6 +984,10 @@ fn execute_ledgered(job: &Job, lu: &LedgerUse, obs: &mut dyn Observer) -> Result
     };
     obs.ready(Some(&plan), bar_total);
     let after = |report: &Report| -> Result<(String, Option<String>), String> {
+        let input_digest = report
+            .input_digest
+            .clone()
+            .ok_or("the run did not digest its input")?;
         let out_digest =
             digest_prefix(&job.output, report.output_bits).map_err(|e| e.to_string())?;
         let in_receipt = ro.output_digest.then(|| out_digest.clone());
@@ -995,7 +1019,22 @@ fn execute_ledgered(job: &Job, lu: &LedgerUse, obs: &mut dyn Observer) -> Result
         after,
     );
     obs.finished();
-    let out = res?;
+    let out = match res {
+        Ok(o) => o,
+        Err(ledgered::Error::Unreserved(super::Error::DigestDiffers { .. })) => {
+            let (path, _, _) = plan
+                .certificate
+                .as_ref()
+                .expect("only a certificate gives a digest");
+            return refuse(format!(
+                "{}: this is not the string {} certifies (the data digest of its first {} bits differs); nothing was extracted, reserved or charged",
+                job.input.path.display(),
+                path.display(),
+                plan.total_bits
+            ));
+        }
+        Err(e) => return Err(e.into()),
+    };
     Ok(Done {
         report: out.report,
         spec: r.spec,

@@ -1,20 +1,25 @@
-//! A run whose seed is accounted in the ledger
-//! (`spec/hashing-and-composition.md` 4.3 and 4.6).
+//! A run whose seed is accounted in the ledger (the composition and
+//! single-use rules of the README's "Seeds and the ledger").
 //!
-//! The order is fixed here, not by the caller: the use is reserved under
-//! the journal lock before any output exists (the ledger's rules refuse it
-//! past the budget, on raw data not committed before the seed's disclosure,
-//! on raw data already used without a reason, or on a second
-//! device-independent run without the cross-run assertion; a new seed's
-//! record and store file go in with the same locked append); then the
-//! output is written and durably renamed; then the receipt; then the use is
-//! committed. A run that fails before reserving leaves the journal
-//! unchanged. A failure after reserving (including SIGINT or SIGTERM, when
-//! the command installed [`crate::files::interrupt`]) removes what the run
-//! wrote and records the use as abandoned: it stays charged. A run killed
-//! outright leaves its reservation open; `sluice ledger abandon` resolves it
-//! once its output is known not to exist (the run's lock file in `runs/`
-//! tells a dead run from a live one).
+//! The order is fixed here, not by the caller. First the ledger's rules are
+//! checked as the journal stands (past the budget, a retired seed, a second
+//! device-independent run without the cross-run assertion; and, when the
+//! input's digest is known beforehand, the raw data's rules). Then the
+//! input is read once: hashed into the output's temporary file and digested
+//! in the same pass. Then the use is reserved under the journal lock with
+//! the digest of the bits hashed (every rule again, including raw data not
+//! committed before the seed's disclosure and raw data already used without
+//! a reason; a new seed's record and store file go in with the same locked
+//! append); only then is the output durably renamed; then the receipt; then
+//! the use is committed. No output appears before its use is reserved.
+//! A run that fails or is interrupted before reserving leaves the journal
+//! unchanged and charges nothing. A failure after reserving (including
+//! SIGINT or SIGTERM, when the command installed
+//! [`crate::files::interrupt`]) removes what the run wrote and records the
+//! use as abandoned: it stays charged. A run killed outright leaves its
+//! reservation open; `sluice ledger abandon` resolves it once its output is
+//! known not to exist (the run's lock file in `runs/` tells a dead run from
+//! a live one).
 
 use super::{Error as RunError, Report, Run};
 use crate::files::{fault, interrupt, Replace};
@@ -34,8 +39,11 @@ pub struct UseSpec {
     pub construction: String,
     /// Its defining integers.
     pub params: BTreeMap<String, u64>,
-    /// Data digest of the raw input.
-    pub input_digest: String,
+    /// The data digest the raw input must have, when it is known before
+    /// the run (a certificate's): checked against the ledger before any
+    /// work, and against the bits hashed before anything is reserved. The
+    /// reservation records the digest of the bits hashed.
+    pub input_digest: Option<String>,
     /// Blocks hashed with the seed.
     pub blocks: u64,
     /// Seed bits read.
@@ -64,6 +72,14 @@ pub enum Error {
     /// The seed store refused or failed (nothing was reserved).
     #[error(transparent)]
     Seed(#[from] seed::Error),
+    /// The run failed (or its input was not the digest it must have)
+    /// before its use was reserved: nothing was charged.
+    #[error("{0}; nothing was reserved or charged")]
+    Unreserved(RunError),
+    /// The run did not digest its input (its length was not given), so
+    /// there is nothing to reserve; nothing was charged.
+    #[error("a run recorded in the ledger must know how many input bits it hashes (their digest is recorded); nothing was reserved or charged")]
+    NoDigest,
     /// The run failed after its use was reserved; the use stays charged.
     #[error("{source}; use {use_id} stays charged to its seed ({resolution})")]
     Run {
@@ -170,6 +186,44 @@ fn remove_outputs(spec: &UseSpec, stage: u8) -> bool {
     stage >= OUTPUT
 }
 
+/// The reservation record of `spec` as use `use_id` of `input_digest`.
+fn use_body(spec: &UseSpec, use_id: &str, input_digest: &str) -> Body {
+    Body::UseReserved {
+        use_id: use_id.to_string(),
+        seed: spec.seed.clone(),
+        construction: spec.construction.clone(),
+        params: spec.params.clone(),
+        input_digest: input_digest.to_string(),
+        blocks: spec.blocks,
+        seed_bits: spec.seed_bits,
+        error: spec.error,
+        device_independent: spec.device_independent,
+        cross_run_asserted: spec.cross_run_asserted,
+        repeat_reason: spec.repeat_reason.clone(),
+        output: Some(absolute(&spec.output).display().to_string()),
+    }
+}
+
+/// Checks the use against the ledger as it is now, before the work: the
+/// rules that do not depend on the bits, and the raw data's rules when
+/// `spec.input_digest` is known. A new seed is not in the journal yet (its
+/// own checks run when it is registered with the reservation).
+fn precheck(ledger: &Ledger, spec: &UseSpec, use_id: &str, new_seed: bool) -> Result<(), Error> {
+    if new_seed {
+        return Ok(());
+    }
+    let replay = ledger.read()?;
+    if let Some(p) = replay.problem {
+        return Err(p.into());
+    }
+    let st = &replay.state;
+    let digest = spec.input_digest.as_deref();
+    let body = use_body(spec, use_id, digest.unwrap_or(""));
+    st.check_use(st.lines + 1, st.last_time, &body, digest.is_some())
+        .map_err(|rule| ledger::Error::from(rule).in_file(&ledger.journal_path()))?;
+    Ok(())
+}
+
 /// Reserves a use of `spec.seed` (after registering `new_seed`, in the same
 /// locked append) and returns its identifier.
 fn reserve(
@@ -177,6 +231,7 @@ fn reserve(
     store: &Store,
     spec: &UseSpec,
     use_id: &str,
+    input_digest: &str,
     new_seed: Option<&mut PendingSeed>,
 ) -> Result<(), ReserveError> {
     let mut bodies = Vec::new();
@@ -188,20 +243,7 @@ fn reserve(
         }
         None => (None, None),
     };
-    bodies.push(Body::UseReserved {
-        use_id: use_id.to_string(),
-        seed: spec.seed.clone(),
-        construction: spec.construction.clone(),
-        params: spec.params.clone(),
-        input_digest: spec.input_digest.clone(),
-        blocks: spec.blocks,
-        seed_bits: spec.seed_bits,
-        error: spec.error,
-        device_independent: spec.device_independent,
-        cross_run_asserted: spec.cross_run_asserted,
-        repeat_reason: spec.repeat_reason.clone(),
-        output: Some(absolute(&spec.output).display().to_string()),
-    });
+    bodies.push(use_body(spec, use_id, input_digest));
     ledger.append_with(
         |st| {
             if let Some(c) = &check {
@@ -233,7 +275,6 @@ pub fn execute(
     progress: impl FnMut(u64),
     after: impl FnOnce(&Report) -> Result<(String, Option<String>), String>,
 ) -> Result<Outcome, Error> {
-    fault::point("before-reserve");
     let use_id = ledger::random_id()?;
     let _run_lock = ledger.lock_run(&use_id)?;
     // The ledger's cleanup must be registered before ours (it runs first).
@@ -289,7 +330,37 @@ pub fn execute(
             lines
         })
     };
-    match reserve(ledger, store, spec, &use_id, new_seed.as_mut()) {
+    // Every rule that does not need the bits is checked before the work
+    // (and the raw data's rules too when the digest is known beforehand):
+    // a refusal costs no hashing and charges nothing.
+    precheck(ledger, spec, &use_id, new_seed.is_some())?;
+    // The input is read once: hashed into the output's temporary file and
+    // digested in the same pass. Nothing is reserved yet, so a failure or
+    // an interruption here charges nothing (the temporary file goes); no
+    // output appears before its use is reserved.
+    let (report, pending) = run
+        .execute_to_temp(replace, progress)
+        .map_err(Error::Unreserved)?;
+    let Some(input_digest) = report.input_digest.clone() else {
+        return Err(Error::NoDigest);
+    };
+    if let Some(want) = &spec.input_digest {
+        if want != &input_digest {
+            return Err(Error::Unreserved(RunError::DigestDiffers {
+                path: run.input.name().to_path_buf(),
+                expected_for: "the digest this run must hash".to_string(),
+            }));
+        }
+    }
+    fault::point("before-reserve");
+    match reserve(
+        ledger,
+        store,
+        spec,
+        &use_id,
+        &input_digest,
+        new_seed.as_mut(),
+    ) {
         Ok(()) => {}
         Err(ReserveError::Before(e)) => return Err(*e),
         Err(ReserveError::After(e)) => {
@@ -302,27 +373,15 @@ pub fn execute(
         }
     }
     fault::point("after-reserve");
-    // The input is digested while it is hashed: if it is not the string
-    // reserved (it changed since), the output is not renamed and the use
-    // is abandoned (still charged).
-    let expected = Some((
-        spec.input_digest.as_str(),
-        "the digest reserved for this use",
-    ));
-    let report = match run.execute_checked(replace, expected, progress) {
-        Ok(r) => {
-            stage.store(OUTPUT, Ordering::SeqCst);
-            r
-        }
-        Err(source) => {
-            let resolution = abandon(ledger, &use_id, &source.to_string(), false);
-            return Err(Error::Run {
-                use_id,
-                source,
-                resolution,
-            });
-        }
-    };
+    if let Err(source) = pending.finish() {
+        let resolution = abandon(ledger, &use_id, &source.to_string(), false);
+        return Err(Error::Run {
+            use_id,
+            source,
+            resolution,
+        });
+    }
+    stage.store(OUTPUT, Ordering::SeqCst);
     let (output_digest, receipt_digest) = match after(&report) {
         Ok(v) => v,
         Err(reason) => {

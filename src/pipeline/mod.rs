@@ -341,6 +341,29 @@ impl Run<'_> {
         expected: Option<(&str, &str)>,
         progress: impl FnMut(u64),
     ) -> Result<Report, Error> {
+        let (report, pending) = self.execute_to_temp(replace, progress)?;
+        if let Some((digest, what)) = expected {
+            if report.input_digest.as_deref() != Some(digest) {
+                return Err(Error::DigestDiffers {
+                    path: self.input.name().to_path_buf(),
+                    expected_for: what.to_string(),
+                });
+            }
+        }
+        pending.finish()?;
+        Ok(report)
+    }
+
+    /// Runs the extraction into the output's temporary file and stops
+    /// before the rename: the caller checks the report (the input digest)
+    /// and records what it must, then calls [`Pending::finish`]. Dropping
+    /// the [`Pending`] removes the temporary file. Standard output cannot
+    /// be held back: it is written as the run goes.
+    pub fn execute_to_temp(
+        &self,
+        replace: Replace,
+        progress: impl FnMut(u64),
+    ) -> Result<(Report, Pending), Error> {
         let out_err = |e: io::Error| Error::Output {
             path: self.output.path.clone(),
             source: e,
@@ -355,18 +378,13 @@ impl Run<'_> {
                 ))
             })
         })?;
-        if let Some((digest, what)) = expected {
-            if report.input_digest.as_deref() != Some(digest) {
-                return Err(Error::DigestDiffers {
-                    path: self.input.name().to_path_buf(),
-                    expected_for: what.to_string(),
-                });
-            }
-        }
-        fault::point("during-write");
-        sink.finish().map_err(out_err)?;
-        fault::point("after-rename");
-        Ok(report)
+        Ok((
+            report,
+            Pending {
+                sink,
+                path: self.output.path.clone(),
+            },
+        ))
     }
 
     /// Recomputes the output and compares it with a claimed output file
@@ -758,6 +776,27 @@ pub struct Verdict {
     pub extra_claimed_bits: u64,
     /// The extraction run.
     pub report: Report,
+}
+
+/// A run's complete output under its temporary name, from
+/// [`Run::execute_to_temp`]: renamed into place by [`Pending::finish`],
+/// removed when dropped.
+pub struct Pending {
+    sink: Sink,
+    path: PathBuf,
+}
+
+impl Pending {
+    /// Flushes, syncs and renames the output into place.
+    pub fn finish(self) -> Result<(), Error> {
+        fault::point("during-write");
+        let path = self.path;
+        self.sink
+            .finish()
+            .map_err(|source| Error::Output { path, source })?;
+        fault::point("after-rename");
+        Ok(())
+    }
 }
 
 /// The output: a temporary file renamed at the end, or standard output.
