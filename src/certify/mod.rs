@@ -11,6 +11,8 @@
 //!   (spec 4), and the legacy regression formula (spec 5).
 //! - [`record`]: the round file format and its streaming parser, and the
 //!   summary of a record (spec 1, 8).
+//! - [`input`]: reading a round file (plain or gzip), a parameters or
+//!   counts file and a raw output file from caller-opened streams.
 //! - [`certificate`]: the certificate document the extractor consumes
 //!   (spec 3.8, 3.9; `spec/hashing-and-composition.md` 5).
 //! - [`simulate`]: a simulated CHSH device for demos and tests only.
@@ -31,6 +33,7 @@ pub mod eat;
 mod error;
 pub mod iid;
 pub mod improved;
+pub mod input;
 pub mod params;
 pub mod record;
 pub mod simulate;

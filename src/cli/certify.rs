@@ -7,7 +7,6 @@
 use super::common::{print_json, progress};
 use anyhow::{anyhow, bail, Context, Result};
 use serde::Serialize;
-use sluice::bits::digest::DataDigest;
 use sluice::certify::certificate::{
     BoundRecord, ChecksRecord, ALICE_LAYOUT, BOUND_FIRST, BOUND_IMPROVED, COUNTS_LABEL,
 };
@@ -24,17 +23,16 @@ use sluice::certify::improved::{
     asymptotic_rate, figure, improved_optimise, input_randomness_bits, plan_tests, Acceptance,
     ImprovedParams, ImprovedTerms, Keep, PlannedTest, TestKind,
 };
+use sluice::certify::input;
 use sluice::certify::params::{self, Declared, KeyValue, COUNT_KEYS, PARAM_KEYS};
 use sluice::certify::record::test_rounds_range;
-use sluice::certify::record::{read_record as read_rounds, Summary};
+use sluice::certify::record::Summary;
 use sluice::certify::tail::TailMethod;
 use sluice::certify::{cautions, Mode, PublicStat, Setup};
-use std::cell::RefCell;
 use std::fs::File;
-use std::io::{BufRead, BufReader, Read, Write};
+use std::io::{BufReader, Read, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
-use std::rc::Rc;
 
 /// Certify the record of a CHSH Bell test, or plan a run.
 ///
@@ -188,10 +186,14 @@ fn read_key_values(path: &Path, allowed: &[&str]) -> Result<(Vec<KeyValue>, Stri
         "parameters or counts file",
     )
     .with_context(|| format!("cannot read {}", path.display()))?;
-    let digest = blake3::hash(&bytes).to_hex().to_string();
-    let kv = params::read_key_values(&bytes[..], allowed)
-        .map_err(|e| anyhow!("{}: {e}", path.display()))?;
-    Ok((kv, digest))
+    let f = input::read_key_value_file(&bytes[..], allowed, &path.display().to_string())
+        .map_err(flat)?;
+    Ok((f.entries, f.digest))
+}
+
+/// A library error as one message (it names the file and line itself).
+fn flat(e: sluice::certify::Error) -> anyhow::Error {
+    anyhow!("{e}")
 }
 
 /// A count written as an integer or as an exact power form such as 1e8.
@@ -922,44 +924,6 @@ fn draw_plot(svg: &mut String, p: &EatParams, eps_c: Option<f64>) -> Result<()> 
 
 // ----------------------------------------------------------- certification
 
-/// A reader that hashes and counts the bytes passing through it.
-struct Tee<R> {
-    inner: R,
-    hasher: Rc<RefCell<blake3::Hasher>>,
-    count: Rc<RefCell<u64>>,
-}
-
-impl<R: Read> Read for Tee<R> {
-    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
-        let n = self.inner.read(buf)?;
-        self.hasher.borrow_mut().update(&buf[..n]);
-        *self.count.borrow_mut() += n as u64;
-        Ok(n)
-    }
-}
-
-/// The raw output being written (through the one atomic writer), or
-/// nothing but the digest.
-enum RawSink {
-    File(sluice::files::AtomicFile),
-    Discard,
-}
-
-impl Write for RawSink {
-    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
-        match self {
-            RawSink::File(f) => f.write(buf),
-            RawSink::Discard => Ok(buf.len()),
-        }
-    }
-    fn flush(&mut self) -> std::io::Result<()> {
-        match self {
-            RawSink::File(f) => f.flush(),
-            RawSink::Discard => Ok(()),
-        }
-    }
-}
-
 /// What was read from the record.
 struct RecordRead {
     summary: Summary,
@@ -977,8 +941,6 @@ fn read_record(
     raw_out: Option<(&Path, sluice::files::Replace)>,
     keep: Keep,
 ) -> Result<RecordRead> {
-    let hasher = Rc::new(RefCell::new(blake3::Hasher::new()));
-    let count = Rc::new(RefCell::new(0u64));
     let (source, size): (Box<dyn Read>, Option<u64>) = if path.as_os_str() == "-" {
         (Box::new(std::io::stdin()), None)
     } else {
@@ -987,102 +949,48 @@ fn read_record(
         let size = f.metadata().ok().map(|m| m.len());
         (Box::new(f), size)
     };
-    let tee = Tee {
-        inner: source,
-        hasher: hasher.clone(),
-        count: count.clone(),
-    };
-    let mut raw_in = BufReader::with_capacity(1 << 20, tee);
-    let compressed = raw_in
-        .fill_buf()
-        .map(|b| b.starts_with(&[0x1f, 0x8b]))
-        .unwrap_or(false);
-    let text: Box<dyn BufRead> = if compressed {
-        Box::new(BufReader::with_capacity(
-            1 << 20,
-            flate2::bufread::MultiGzDecoder::new(raw_in),
-        ))
-    } else {
-        Box::new(raw_in)
-    };
     let sink = match raw_out {
-        Some((dest, replace)) => RawSink::File(
+        Some((dest, replace)) => Some(
             sluice::files::AtomicFile::create(dest, sluice::files::Kind::RawOutput, replace)
                 .with_context(|| format!("cannot create {}", dest.display()))?,
         ),
-        None => RawSink::Discard,
+        None => None,
     };
     let pb = progress(size.unwrap_or(0), "reading rounds");
-    // One pass: the library parses, tallies, writes and digests the kept
-    // string; this layer only supplies the streams.
-    let result = read_rounds(text, n_expected, keep, sink, || {
-        pb.set_position(*count.borrow())
-    });
+    // One pass: the library detects gzip, parses, tallies, writes and
+    // digests; this layer only supplies the streams.
+    let result = input::read_round_file(
+        source,
+        &path.display().to_string(),
+        n_expected,
+        gamma,
+        keep,
+        sink,
+        |bytes| pb.set_position(bytes),
+    );
     pb.finish_and_clear();
     // On an error the writer is dropped: its temporary file goes with it.
-    let read = result.map_err(|e| anyhow!("{}: {e}", path.display()))?;
-    let rounds = read.rounds;
-    if rounds != n_expected {
-        bail!(
-            "{}: the record holds {rounds} rounds, but N_rounds = {n_expected} was fixed before the run",
-            path.display()
-        );
-    }
-    let raw_file = match read.sink {
-        RawSink::File(f) => Some(f),
-        RawSink::Discard => None,
-    };
-    let summary = read.tally.summary(gamma)?;
-    let file_digest = hasher.borrow().finalize().to_hex().to_string();
-    let file_bytes = *count.borrow();
+    let read = result.map_err(flat)?;
     Ok(RecordRead {
-        summary,
-        info: RecordInfo {
-            form: "round-file".into(),
-            file_digest: Some(file_digest),
-            file_bytes: Some(file_bytes),
-            compressed,
-            rounds,
-            test_rounds: 0,
-            wins: None,
-            pair_counts: None,
-        },
+        summary: read.summary,
+        info: read.info,
         raw_digest: Some(read.raw_digest),
-        raw_file,
+        raw_file: read.sink,
     })
 }
 
-fn read_counts(path: &Path, gamma: f64) -> Result<Summary> {
+fn read_counts(path: &Path, gamma: f64) -> Result<input::CountsFile> {
     let bytes = sluice::files::keyvalue::read_limited(path, params::MAX_FILE_BYTES, "counts file")
         .with_context(|| format!("cannot read {}", path.display()))?;
-    let mut s = params::read_counts(&bytes[..]).map_err(|e| anyhow!("{}: {e}", path.display()))?;
-    s.add_warnings(gamma);
-    Ok(s)
+    input::read_counts_file(&bytes[..], gamma, &path.display().to_string()).map_err(flat)
 }
 
 fn digest_raw_file(path: &Path, nbits: u64) -> Result<String> {
     let f = File::open(path)
         .with_context(|| format!("cannot open the raw output file {}", path.display()))?;
     let len = f.metadata()?.len();
-    if len != nbits.div_ceil(8) {
-        bail!(
-            "{}: {len} bytes, but the {nbits}-bit string a1 b1 .. aN bN of the counts needs {} bytes",
-            path.display(),
-            nbits.div_ceil(8)
-        );
-    }
-    let mut d = DataDigest::new(nbits);
-    let mut r = BufReader::with_capacity(1 << 20, f);
-    loop {
-        let buf = r.fill_buf()?;
-        if buf.is_empty() {
-            break;
-        }
-        d.update(buf);
-        let n = buf.len();
-        r.consume(n);
-    }
-    Ok(d.finish_hex())
+    let r = BufReader::with_capacity(1 << 20, f);
+    input::digest_raw_string(r, len, nbits, &path.display().to_string()).map_err(flat)
 }
 
 #[derive(Serialize)]
@@ -1177,7 +1085,8 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
             (rr.summary, rr.info, rr.raw_digest, rr.raw_file)
         }
         (None, Some(path)) => {
-            let s = read_counts(path, gamma)?;
+            let counts = read_counts(path, gamma)?;
+            let s = counts.summary;
             if s.n_rounds != n {
                 bail!(
                     "{}: rounds = {}, but N_rounds = {n} was fixed before the run",
@@ -1194,8 +1103,8 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
             };
             let info = RecordInfo {
                 form: "counts".into(),
-                file_digest: Some(blake3::hash(&std::fs::read(path)?).to_hex().to_string()),
-                file_bytes: std::fs::metadata(path).ok().map(|m| m.len()),
+                file_digest: Some(counts.digest),
+                file_bytes: Some(counts.bytes),
                 compressed: false,
                 rounds: s.n_rounds,
                 test_rounds: s.n_test,
