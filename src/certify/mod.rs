@@ -13,6 +13,8 @@
 //!   summary of a record (spec 1, 8).
 //! - [`input`]: reading a round file (plain or gzip), a parameters or
 //!   counts file and a raw output file from caller-opened streams.
+//! - [`planning`]: the protocol resolved from the declared parameters,
+//!   and the planning figures of `certify --plan`.
 //! - [`certificate`]: the certificate document the extractor consumes
 //!   (spec 3.8, 3.9; `spec/hashing-and-composition.md` 5).
 //! - [`simulate`]: a simulated CHSH device for demos and tests only.
@@ -35,6 +37,7 @@ pub mod iid;
 pub mod improved;
 pub mod input;
 pub mod params;
+pub mod planning;
 pub mod record;
 pub mod simulate;
 pub mod tail;
