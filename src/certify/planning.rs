@@ -467,3 +467,110 @@ pub fn plan_rate(p: &EatParams, n: u64, gamma: f64, eps_c: Option<f64>) -> f64 {
         .map(|r| r.bits as f64 / n as f64)
         .unwrap_or(0.0)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::certify::params::{read_key_values, PARAM_KEYS};
+
+    fn declared() -> Declared {
+        Declared {
+            rounds: Some(100_000_000),
+            gamma: Some(0.1),
+            w_exp: Some(0.84),
+            eps_s: Some(1e-6),
+            eps_ea: Some(1e-6),
+            eps_c: Some(1e-6),
+            ..Default::default()
+        }
+    }
+
+    #[test]
+    fn missing_parameters_are_named() {
+        let d = Declared {
+            rounds: None,
+            ..declared()
+        };
+        let e = protocol(&d, true).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "--rounds is missing (give it as an option or in the --params file)"
+        );
+        // Certifying needs the test fixed; planning compares the tests.
+        let e = protocol(&declared(), false).unwrap_err();
+        assert!(e.to_string().starts_with("--test is missing"), "{e}");
+        assert!(protocol(&declared(), true).unwrap().is_none());
+        let d = Declared {
+            bound: Some(BOUND_FIRST.into()),
+            eps_c: None,
+            ..declared()
+        };
+        let e = protocol(&d, true).unwrap_err();
+        assert!(
+            e.to_string().starts_with("--tolerance or --completeness"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn charge_is_the_bits_of_w() {
+        // W takes one of N + 1 values: ceil(log2(1001)) = 10 bits.
+        assert_eq!(planning_charge(1000, 0.5, 1e-6, Keep::Pairs), 10.0);
+        // 2^10 - 1 rounds: exactly 1024 values, 10 bits.
+        assert_eq!(planning_charge(1023, 0.5, 1e-6, Keep::Pairs), 10.0);
+        let alice = planning_charge(1000, 0.5, 1e-6, Keep::Alice);
+        assert!(alice > 10.0 + 500.0 && alice <= 10.0 + 1000.0, "{alice}");
+    }
+
+    #[test]
+    fn improved_plan_picks_the_best_and_its_file_reads_back() {
+        let plan = plan_improved(&declared(), None).unwrap();
+        assert!(plan.rows.len() >= 2);
+        let best = plan.rows[plan.chosen].bits;
+        assert!(best > 0);
+        assert!(plan.rows.iter().all(|r| r.bits <= best));
+        for r in &plan.rows {
+            assert_eq!(r.bits_per_round, r.bits as f64 / 1e8);
+            assert!(r.completeness_error > 1e-6);
+        }
+        // The certified bits per round never exceed the asymptotic rate.
+        assert!((best as f64) < plan.asymptotic_bits);
+        // The parameters file fixes the chosen test: read back, it gives a
+        // protocol with the same acceptance test.
+        let kv = read_key_values(plan.parameters_file.as_bytes(), &PARAM_KEYS).unwrap();
+        let mut d = Declared::default();
+        d.merge(&kv, false).unwrap();
+        let p = protocol(&d, false).unwrap().unwrap();
+        assert_eq!(p.acceptance().kind, plan.best.kind);
+        assert_eq!(p.acceptance().tail, plan.best.tail);
+        // Re-planning that protocol gives the chosen row's figure.
+        let again = plan_improved(&d, Some(p)).unwrap();
+        assert_eq!(again.rows.len(), 1);
+        assert_eq!(again.rows[0].bits, best);
+        // The plot's rate at the planned point is the plan's figure.
+        assert_eq!(plan.rate(100_000_000, 0.1), best as f64 / 1e8);
+    }
+
+    #[test]
+    fn first_plan_covers_pairs_only() {
+        let d = Declared {
+            bound: Some(BOUND_FIRST.into()),
+            delta: Some(0.002),
+            eps_c: None,
+            ..declared()
+        };
+        let (p, res) = plan_first(&d).unwrap();
+        // The worked example of the module docs: 52 402 723 bits.
+        assert_eq!(res.bits, 52_402_723);
+        assert_eq!(
+            plan_rate(&p, p.n_rounds, p.gamma, None),
+            res.bits as f64 / 1e8
+        );
+        let e = plan_first(&Declared {
+            keep: Some("alice".into()),
+            ..d
+        })
+        .unwrap_err();
+        assert!(e.to_string().starts_with("--keep alice"), "{e}");
+    }
+}
