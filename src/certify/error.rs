@@ -3,6 +3,8 @@ use std::fmt;
 /// Where in the input a problem was found.
 #[derive(Debug, Clone, PartialEq, Eq, Default)]
 pub struct Position {
+    /// The file or stream (as the caller names it, `-` for standard input).
+    pub file: Option<String>,
     /// Line number in a round file, parameters file or summary (1-based).
     pub line: Option<u64>,
     /// The field or parameter concerned (for example `gamma` or `x`).
@@ -11,6 +13,9 @@ pub struct Position {
 
 impl fmt::Display for Position {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        if let Some(file) = &self.file {
+            write!(f, "{file}: ")?;
+        }
         match (&self.line, &self.field) {
             (Some(l), Some(n)) => write!(f, "line {l}, field {n}: "),
             (Some(l), None) => write!(f, "line {l}: "),
@@ -84,6 +89,14 @@ pub enum ErrorKind {
         /// What is wrong.
         what: String,
     },
+    /// Protocol parameters missing, or not fitting together (the message
+    /// names the parameter as its option, `--name`, which is also its key
+    /// in a parameters file).
+    #[error("{what}")]
+    Protocol {
+        /// What is missing or does not fit.
+        what: String,
+    },
     /// A certificate JSON document that does not parse or does not validate.
     #[error("{0}")]
     Certificate(String),
@@ -111,6 +124,14 @@ impl Error {
     /// Sets the line number.
     pub fn at_line(mut self, line: u64) -> Self {
         self.position.line = Some(line);
+        self
+    }
+
+    /// Sets the file or stream name (kept if one is set already).
+    pub fn in_file(mut self, file: &str) -> Self {
+        if self.position.file.is_none() {
+            self.position.file = Some(file.to_string());
+        }
         self
     }
 

@@ -11,6 +11,10 @@
 //!   (spec 4), and the legacy regression formula (spec 5).
 //! - [`record`]: the round file format and its streaming parser, and the
 //!   summary of a record (spec 1, 8).
+//! - [`input`]: reading a round file (plain or gzip), a parameters or
+//!   counts file and a raw output file from caller-opened streams.
+//! - [`planning`]: the protocol resolved from the declared parameters,
+//!   and the planning figures of `certify --plan`.
 //! - [`certificate`]: the certificate document the extractor consumes
 //!   (spec 3.8, 3.9; `spec/hashing-and-composition.md` 5).
 //! - [`simulate`]: a simulated CHSH device for demos and tests only.
@@ -31,7 +35,9 @@ pub mod eat;
 mod error;
 pub mod iid;
 pub mod improved;
+pub mod input;
 pub mod params;
+pub mod planning;
 pub mod record;
 pub mod simulate;
 pub mod tail;

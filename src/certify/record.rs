@@ -686,7 +686,8 @@ const CHUNK_ROUNDS: usize = 1 << 20;
 /// (the outputs of the first `n_expected` rounds: `a1 b1 .. aN bN`, or
 /// `a1 .. aN` for [`Keep::Alice`]; packed, MSB first) to `sink` while
 /// digesting it. `progress` is called after every step of about a million
-/// rounds. The caller checks `rounds` against `n_expected`.
+/// rounds. Fewer than `n_expected` rounds is an error; the caller checks
+/// `rounds` for more.
 pub fn read_record<R: BufRead, W: std::io::Write>(
     text: R,
     n_expected: u64,
@@ -731,6 +732,16 @@ pub fn read_record<R: BufRead, W: std::io::Write>(
             written += take as u64;
         }
         progress();
+    }
+    if written < n_expected {
+        // Too few rounds: the raw string is short, so there is no digest of
+        // the declared length to give (too many is the caller's check).
+        return Err(Error::new(ErrorKind::InconsistentCounts {
+            what: format!(
+                "the record holds {} rounds, but N_rounds = {n_expected} was fixed before the run",
+                tally.rounds()
+            ),
+        }));
     }
     let DigestWriter { mut inner, digest } = writer.finish()?;
     inner.flush()?;

@@ -7,7 +7,6 @@
 use super::common::{print_json, progress};
 use anyhow::{anyhow, bail, Context, Result};
 use serde::Serialize;
-use sluice::bits::digest::DataDigest;
 use sluice::certify::certificate::{
     BoundRecord, ChecksRecord, ALICE_LAYOUT, BOUND_FIRST, BOUND_IMPROVED, COUNTS_LABEL,
 };
@@ -15,26 +14,20 @@ use sluice::certify::certificate::{
     Certificate, CertifiedString, Parameters, PublicValues, RecordInfo, ResultTerms, PAIR_LAYOUT,
     SCHEMA,
 };
-use sluice::certify::eat::{
-    completeness, delta_for_completeness, eat_certify, eat_plan, log2_values_ceil, EatParams,
-    EatResult, ZeroReason, MARGIN_BITS,
-};
+use sluice::certify::eat::{eat_certify, EatParams, EatResult, ZeroReason, MARGIN_BITS};
 use sluice::certify::iid::{iid_estimate, IID_LABEL};
-use sluice::certify::improved::{
-    asymptotic_rate, figure, improved_optimise, input_randomness_bits, plan_tests, Acceptance,
-    ImprovedParams, ImprovedTerms, Keep, PlannedTest, TestKind,
-};
+use sluice::certify::improved::{figure, improved_optimise, Keep, TestKind};
+use sluice::certify::input;
 use sluice::certify::params::{self, Declared, KeyValue, COUNT_KEYS, PARAM_KEYS};
-use sluice::certify::record::test_rounds_range;
-use sluice::certify::record::{read_record as read_rounds, Summary};
-use sluice::certify::tail::TailMethod;
+use sluice::certify::planning::{
+    need, plan_first, plan_improved, plan_rate, protocol, Bound, PlanRow, Protocol,
+};
+use sluice::certify::record::Summary;
 use sluice::certify::{cautions, Mode, PublicStat, Setup};
-use std::cell::RefCell;
 use std::fs::File;
-use std::io::{BufRead, BufReader, Read, Write};
+use std::io::{BufReader, Read, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
-use std::rc::Rc;
 
 /// Certify the record of a CHSH Bell test, or plan a run.
 ///
@@ -188,10 +181,14 @@ fn read_key_values(path: &Path, allowed: &[&str]) -> Result<(Vec<KeyValue>, Stri
         "parameters or counts file",
     )
     .with_context(|| format!("cannot read {}", path.display()))?;
-    let digest = blake3::hash(&bytes).to_hex().to_string();
-    let kv = params::read_key_values(&bytes[..], allowed)
-        .map_err(|e| anyhow!("{}: {e}", path.display()))?;
-    Ok((kv, digest))
+    let f = input::read_key_value_file(&bytes[..], allowed, &path.display().to_string())
+        .map_err(flat)?;
+    Ok((f.entries, f.digest))
+}
+
+/// A library error as one message (it names the file and line itself).
+fn flat(e: sluice::certify::Error) -> anyhow::Error {
+    anyhow!("{e}")
 }
 
 /// A count written as an integer or as an exact power form such as 1e8.
@@ -272,191 +269,6 @@ impl CertifyArgs {
     }
 }
 
-fn need<T>(v: Option<T>, name: &str) -> Result<T> {
-    v.ok_or_else(|| anyhow!("--{name} is missing (give it as an option or in the --params file)"))
-}
-
-fn eat_params(r: &Resolved, delta: f64) -> Result<EatParams> {
-    Ok(EatParams {
-        n_rounds: need(r.rounds, "rounds")?,
-        gamma: need(r.gamma, "test-probability")?,
-        w_exp: need(r.w_exp, "expected-win")?,
-        delta,
-        eps_s: need(r.eps_s, "smoothing")?,
-        eps_ea: need(r.eps_ea, "acceptance")?,
-    })
-}
-
-/// The bound chosen and everything it needs, fixed before the run.
-#[derive(Debug, Clone, Copy)]
-enum Bound {
-    /// First-order bound of spec 3 (tolerance form).
-    First(EatParams),
-    /// Improved bound with its acceptance test.
-    Improved(ImprovedParams),
-}
-
-/// The protocol of a run: the bound, the string kept, and the level of the
-/// record checks.
-#[derive(Debug, Clone, Copy)]
-struct Protocol {
-    bound: Bound,
-    keep: Keep,
-    w_exp: f64,
-}
-
-impl Protocol {
-    fn eps_s(&self) -> f64 {
-        match &self.bound {
-            Bound::First(p) => p.eps_s,
-            Bound::Improved(p) => p.eps_s,
-        }
-    }
-    fn eps_ea(&self) -> f64 {
-        match &self.bound {
-            Bound::First(p) => p.eps_ea,
-            Bound::Improved(p) => p.eps_ea,
-        }
-    }
-    fn name(&self) -> &'static str {
-        match self.bound {
-            Bound::First(_) => BOUND_FIRST,
-            Bound::Improved(_) => BOUND_IMPROVED,
-        }
-    }
-    /// The acceptance test as a record.
-    fn acceptance(&self) -> Acceptance {
-        match &self.bound {
-            Bound::First(p) => Acceptance {
-                kind: TestKind::Wins,
-                nu: 0.0,
-                threshold: p.threshold_wins(),
-                tail: TailMethod::Hoeffding,
-                completeness: completeness(p.n_rounds, p.gamma, p.delta),
-            },
-            Bound::Improved(p) => p.acceptance,
-        }
-    }
-}
-
-fn parse_tail(t: &str) -> Result<TailMethod> {
-    TailMethod::parse(t)
-        .ok_or_else(|| anyhow!("--tail {t:?}: use binomial, chernoff, bernstein or hoeffding"))
-}
-
-/// Resolves the protocol; `plan` allows the test (and nu) to be left open
-/// (`Ok(None)` for the improved bound then: the planner compares tests).
-fn protocol(r: &Resolved, plan: bool) -> Result<Option<Protocol>> {
-    let n = need(r.rounds, "rounds")?;
-    let gamma = need(r.gamma, "test-probability")?;
-    let w_exp = need(r.w_exp, "expected-win")?;
-    let keep = match r.keep.as_deref() {
-        None | Some("pairs") => Keep::Pairs,
-        Some(_) => Keep::Alice,
-    };
-    let bound = r.bound.as_deref().unwrap_or(BOUND_IMPROVED);
-    if bound == BOUND_FIRST {
-        if r.test.as_deref() == Some("score") || r.nu.is_some() {
-            bail!("--test score: the first-2016 bound takes the win-count test only (use --bound improved-2019)");
-        }
-        if r.tail.as_deref().is_some_and(|t| t != "hoeffding") {
-            bail!("--tail: the first-2016 bound derives its tolerance with hoeffding (spec 3.5)");
-        }
-        let delta = match (r.delta, r.eps_c) {
-            (Some(d), _) => d,
-            (None, Some(eps_c)) => {
-                if !(eps_c > 0.0 && eps_c < 1.0) {
-                    bail!("--completeness {eps_c}: must lie strictly between 0 and 1");
-                }
-                delta_for_completeness(n, gamma, eps_c)
-            }
-            (None, None) => {
-                bail!("--tolerance or --completeness is missing (fixed before the run)")
-            }
-        };
-        let p = eat_params(r, delta)?;
-        p.validate()?;
-        return Ok(Some(Protocol {
-            bound: Bound::First(p),
-            keep,
-            w_exp,
-        }));
-    }
-    let eps_s = need(r.eps_s, "smoothing")?;
-    let eps_ea = need(r.eps_ea, "acceptance")?;
-    let acceptance = if let Some(delta) = r.delta {
-        if r.test.as_deref() == Some("score") {
-            bail!("--tolerance gives a win-count threshold; for --test score give --completeness");
-        }
-        Acceptance {
-            kind: TestKind::Wins,
-            nu: 0.0,
-            threshold: gamma * n as f64 * (w_exp - delta),
-            tail: TailMethod::Hoeffding,
-            completeness: completeness(n, gamma, delta),
-        }
-    } else {
-        let eps_c = need(r.eps_c, "completeness")?;
-        let kind = match r.test.as_deref() {
-            Some("wins") => TestKind::Wins,
-            Some(_) => TestKind::Score,
-            None if plan => return Ok(None),
-            None => bail!("--test is missing: the acceptance test (wins or score) is fixed before the run; certify --plan compares them"),
-        };
-        let nu = match kind {
-            TestKind::Wins => 0.0,
-            TestKind::Score => match r.nu {
-                Some(nu) => nu,
-                None if plan => return Ok(None),
-                None => bail!("--score-offset is missing: --test score needs the nu fixed before the run (certify --plan chooses one)"),
-            },
-        };
-        let tail = match (r.tail.as_deref(), kind) {
-            (Some(t), _) => parse_tail(t)?,
-            (None, TestKind::Wins) => TailMethod::Binomial,
-            (None, TestKind::Score) => TailMethod::Chernoff,
-        };
-        Acceptance::for_completeness(n, gamma, w_exp, eps_c, kind, nu, tail)?
-    };
-    let p = ImprovedParams {
-        n_rounds: n,
-        gamma,
-        eps_s,
-        eps_ea,
-        acceptance,
-    };
-    p.validate()?;
-    Ok(Some(Protocol {
-        bound: Bound::Improved(p),
-        keep,
-        w_exp,
-    }))
-}
-
-/// Bits charged besides the margin when planning: W published (at most
-/// `ceil(log2(N + 1))`) and, keeping Alice's bits only, the largest N_test
-/// the record checks let pass.
-fn planning_charge(n: u64, gamma: f64, level: f64, keep: Keep) -> f64 {
-    let w = log2_values_ceil(n) as f64;
-    match keep {
-        Keep::Pairs => w,
-        Keep::Alice => w + test_rounds_range(n, gamma, level).1 as f64,
-    }
-}
-
-#[derive(Serialize)]
-struct ImprovedPlanRow {
-    test: &'static str,
-    tail: &'static str,
-    score_offset: f64,
-    threshold: f64,
-    w_acc: f64,
-    completeness_error: f64,
-    bits: u64,
-    bits_per_round: f64,
-    terms: Option<ImprovedTerms>,
-}
-
 #[derive(Serialize)]
 struct ImprovedPlanReport {
     kind: &'static str,
@@ -468,7 +280,7 @@ struct ImprovedPlanReport {
     expected_win: f64,
     smoothing: f64,
     acceptance: f64,
-    rows: Vec<ImprovedPlanRow>,
+    rows: Vec<PlanRow>,
     chosen: usize,
     asymptotic_bits: f64,
     input_randomness_bits: f64,
@@ -485,106 +297,17 @@ fn run_plan_improved(
     r: &Resolved,
     fixed: Option<Protocol>,
 ) -> Result<ExitCode> {
-    let n = need(r.rounds, "rounds")?;
-    let gamma = need(r.gamma, "test-probability")?;
-    let w_exp = need(r.w_exp, "expected-win")?;
-    let eps_s = need(r.eps_s, "smoothing")?;
-    let eps_ea = need(r.eps_ea, "acceptance")?;
-    let keep = match r.keep.as_deref() {
-        Some("alice") => Keep::Alice,
-        _ => Keep::Pairs,
-    };
-    let level = eps_ea;
-    let charge = planning_charge(n, gamma, level, keep);
-    let candidates: Vec<PlannedTest> = match fixed {
-        Some(Protocol {
-            bound: Bound::Improved(p),
-            ..
-        }) => {
-            let terms = improved_optimise(&p);
-            vec![PlannedTest {
-                acceptance: p.acceptance,
-                terms,
-                bits: terms.map_or(0, |t| figure(t.bound_bits, charge)),
-            }]
-        }
-        _ => {
-            let eps_c = need(r.eps_c, "completeness")?;
-            let all = plan_tests(n, gamma, w_exp, eps_c, eps_s, eps_ea, &|_| charge)?;
-            let want_kind = match r.test.as_deref() {
-                Some("wins") => Some(TestKind::Wins),
-                Some("score") => Some(TestKind::Score),
-                _ => None,
-            };
-            all.into_iter()
-                .filter(|t| want_kind.is_none_or(|k| t.acceptance.kind == k))
-                .filter(|t| {
-                    r.tail
-                        .as_deref()
-                        .is_none_or(|x| x == t.acceptance.tail.name())
-                })
-                .collect()
-        }
-    };
-    if candidates.is_empty() {
-        bail!("--tail: no acceptance test of this kind takes that tail (wins: binomial, chernoff; score: chernoff, bernstein)");
-    }
-    let chosen = candidates
-        .iter()
-        .enumerate()
-        .max_by(|a, b| a.1.bits.cmp(&b.1.bits).then(b.0.cmp(&a.0)))
-        .map(|(i, _)| i)
-        .unwrap_or(0);
-    let (lo, hi) = test_rounds_range(n, gamma, level);
-    let rows: Vec<ImprovedPlanRow> = candidates
-        .iter()
-        .map(|t| ImprovedPlanRow {
-            test: match t.acceptance.kind {
-                TestKind::Wins => "wins",
-                TestKind::Score => "score",
-            },
-            tail: t.acceptance.tail.name(),
-            score_offset: t.acceptance.nu,
-            threshold: t.acceptance.threshold,
-            w_acc: t.acceptance.w_acc(n, gamma),
-            completeness_error: t.acceptance.completeness + level,
-            bits: t.bits,
-            bits_per_round: t.bits as f64 / n as f64,
-            terms: t.terms,
-        })
-        .collect();
-    let best = &candidates[chosen];
-    let input_bits = input_randomness_bits(n, gamma);
-    let mut params_file = format!(
-        "# fixed before the run (certify --plan)\nrounds = {n}\ntest-probability = {gamma}\nexpected-win = {w_exp}\nsmoothing = {eps_s:e}\nacceptance = {eps_ea:e}\nbound = {BOUND_IMPROVED}\nkeep = {}\n",
-        keep.name()
-    );
-    match best.acceptance.tail {
-        TailMethod::Hoeffding => {
-            params_file.push_str(&format!(
-                "tolerance = {}\n",
-                w_exp - best.acceptance.threshold / (gamma * n as f64)
-            ));
-        }
-        t => {
-            params_file.push_str(&format!(
-                "completeness = {:e}\ntest = {}\ntail = {}\n",
-                need(r.eps_c, "completeness")?,
-                rows[chosen].test,
-                t.name()
-            ));
-            if best.acceptance.kind == TestKind::Score {
-                params_file.push_str(&format!("score-offset = {}\n", best.acceptance.nu));
-            }
-        }
-    }
+    let plan = plan_improved(r, fixed)?;
+    let (n, gamma, w_exp, eps_s, eps_ea) =
+        (plan.rounds, plan.gamma, plan.w_exp, plan.eps_s, plan.eps_ea);
+    let (keep, level, chosen) = (plan.keep, plan.level, plan.chosen);
+    let [lo, hi] = plan.test_rounds_range;
+    let input_bits = plan.input_randomness_bits;
     let mut plot = None;
     if let Some(path) = &args.plot {
-        let a = best.acceptance;
-        let eps_c = r.eps_c;
         let caption = format!(
             "improved-2019 bound, {} test: certified bits per round if the run passes (W published); w_exp = {w_exp}, eps_s = {eps_s:e}, eps_EA = {eps_ea:e}",
-            rows[chosen].test
+            plan.rows[chosen].test
         );
         super::common::check_output(
             path,
@@ -592,28 +315,8 @@ fn run_plan_improved(
             &[(args.params.as_deref(), "parameters file")],
             args.force,
         )?;
-        let rate = |n: u64, g: f64| {
-            let acc = match eps_c {
-                Some(e) => Acceptance::for_completeness(n, g, w_exp, e, a.kind, a.nu, a.tail),
-                None => Ok(Acceptance {
-                    threshold: a.threshold / (gamma * r.rounds.unwrap_or(1) as f64) * g * n as f64,
-                    ..a
-                }),
-            };
-            let Ok(acc) = acc else { return 0.0 };
-            let p = ImprovedParams {
-                n_rounds: n,
-                gamma: g,
-                eps_s,
-                eps_ea,
-                acceptance: acc,
-            };
-            improved_optimise(&p).map_or(0.0, |t| {
-                figure(t.bound_bits, planning_charge(n, g, level, keep)) as f64 / n as f64
-            })
-        };
         super::common::write_svg(path, args.force, |svg| {
-            super::plot::certify_rates(svg, gamma, &caption, &rate)
+            super::plot::certify_rates(svg, gamma, &caption, &|n, g| plan.rate(n, g))
         })?;
         plot = Some(path.display().to_string());
     }
@@ -628,14 +331,14 @@ fn run_plan_improved(
         smoothing: eps_s,
         acceptance: eps_ea,
         chosen,
-        asymptotic_bits: n as f64 * asymptotic_rate(w_exp),
+        asymptotic_bits: plan.asymptotic_bits,
         input_randomness_bits: input_bits,
-        net_gain_bits: best.bits as f64 - input_bits,
+        net_gain_bits: plan.net_gain_bits,
         record_check_level: level,
         test_rounds_range: [lo, hi],
-        parameters_file: params_file,
+        parameters_file: plan.parameters_file,
         plot,
-        rows,
+        rows: plan.rows,
         cautions: cautions(Mode::EntropyAccumulation).to_vec(),
     };
     if args.json {
@@ -720,7 +423,7 @@ fn run_plan_improved(
     writeln!(
         o,
         "  completeness: honest devices abort with probability at most {:.3e} (test) + {level:e} (record checks: N_test in {lo}..={hi}, uniform test inputs)",
-        best.acceptance.completeness
+        plan.best.completeness
     )?;
     writeln!(o, "\nparameters to fix before the run (a --params file):")?;
     for l in report.parameters_file.lines().skip(1) {
@@ -767,23 +470,8 @@ fn run_plan(args: &CertifyArgs) -> Result<ExitCode> {
     if r.bound.as_deref() != Some(BOUND_FIRST) {
         return run_plan_improved(args, &r, prot);
     }
-    if r.keep.as_deref() == Some("alice") {
-        bail!("--keep alice: --plan computes the Alice-only figure with --bound improved-2019 (the first-2016 plan covers the pair string of spec 3.8)");
-    }
-    let n = need(r.rounds, "rounds")?;
-    let gamma = need(r.gamma, "test-probability")?;
-    let delta = match (r.delta, r.eps_c) {
-        (Some(d), _) => d,
-        (None, Some(eps_c)) => {
-            if !(eps_c > 0.0 && eps_c < 1.0) {
-                bail!("--completeness {eps_c}: must lie strictly between 0 and 1");
-            }
-            delta_for_completeness(n, gamma, eps_c)
-        }
-        (None, None) => bail!("--tolerance or --completeness is missing"),
-    };
-    let p = eat_params(&r, delta)?;
-    let res = eat_plan(&p)?;
+    let (p, res) = plan_first(&r)?;
+    let n = p.n_rounds;
     let mut plot = None;
     if let Some(path) = &args.plot {
         super::common::check_output(
@@ -888,26 +576,6 @@ fn wrap(text: &str, width: usize) -> Vec<String> {
     lines
 }
 
-/// Certified bits per round (planning, W published) at `n` rounds.
-fn plan_rate(p: &EatParams, n: u64, gamma: f64, eps_c: Option<f64>) -> f64 {
-    let delta = match eps_c {
-        Some(e) => delta_for_completeness(n, gamma, e),
-        None => p.delta,
-    };
-    let q = EatParams {
-        n_rounds: n,
-        gamma,
-        delta,
-        ..*p
-    };
-    if delta >= q.w_exp {
-        return 0.0;
-    }
-    eat_plan(&q)
-        .map(|r| r.bits as f64 / n as f64)
-        .unwrap_or(0.0)
-}
-
 fn draw_plot(svg: &mut String, p: &EatParams, eps_c: Option<f64>) -> Result<()> {
     let delta_text = match eps_c {
         Some(e) => format!("delta for completeness error {e:e}"),
@@ -921,44 +589,6 @@ fn draw_plot(svg: &mut String, p: &EatParams, eps_c: Option<f64>) -> Result<()> 
 }
 
 // ----------------------------------------------------------- certification
-
-/// A reader that hashes and counts the bytes passing through it.
-struct Tee<R> {
-    inner: R,
-    hasher: Rc<RefCell<blake3::Hasher>>,
-    count: Rc<RefCell<u64>>,
-}
-
-impl<R: Read> Read for Tee<R> {
-    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
-        let n = self.inner.read(buf)?;
-        self.hasher.borrow_mut().update(&buf[..n]);
-        *self.count.borrow_mut() += n as u64;
-        Ok(n)
-    }
-}
-
-/// The raw output being written (through the one atomic writer), or
-/// nothing but the digest.
-enum RawSink {
-    File(sluice::files::AtomicFile),
-    Discard,
-}
-
-impl Write for RawSink {
-    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
-        match self {
-            RawSink::File(f) => f.write(buf),
-            RawSink::Discard => Ok(buf.len()),
-        }
-    }
-    fn flush(&mut self) -> std::io::Result<()> {
-        match self {
-            RawSink::File(f) => f.flush(),
-            RawSink::Discard => Ok(()),
-        }
-    }
-}
 
 /// What was read from the record.
 struct RecordRead {
@@ -977,8 +607,6 @@ fn read_record(
     raw_out: Option<(&Path, sluice::files::Replace)>,
     keep: Keep,
 ) -> Result<RecordRead> {
-    let hasher = Rc::new(RefCell::new(blake3::Hasher::new()));
-    let count = Rc::new(RefCell::new(0u64));
     let (source, size): (Box<dyn Read>, Option<u64>) = if path.as_os_str() == "-" {
         (Box::new(std::io::stdin()), None)
     } else {
@@ -987,102 +615,48 @@ fn read_record(
         let size = f.metadata().ok().map(|m| m.len());
         (Box::new(f), size)
     };
-    let tee = Tee {
-        inner: source,
-        hasher: hasher.clone(),
-        count: count.clone(),
-    };
-    let mut raw_in = BufReader::with_capacity(1 << 20, tee);
-    let compressed = raw_in
-        .fill_buf()
-        .map(|b| b.starts_with(&[0x1f, 0x8b]))
-        .unwrap_or(false);
-    let text: Box<dyn BufRead> = if compressed {
-        Box::new(BufReader::with_capacity(
-            1 << 20,
-            flate2::bufread::MultiGzDecoder::new(raw_in),
-        ))
-    } else {
-        Box::new(raw_in)
-    };
     let sink = match raw_out {
-        Some((dest, replace)) => RawSink::File(
+        Some((dest, replace)) => Some(
             sluice::files::AtomicFile::create(dest, sluice::files::Kind::RawOutput, replace)
                 .with_context(|| format!("cannot create {}", dest.display()))?,
         ),
-        None => RawSink::Discard,
+        None => None,
     };
     let pb = progress(size.unwrap_or(0), "reading rounds");
-    // One pass: the library parses, tallies, writes and digests the kept
-    // string; this layer only supplies the streams.
-    let result = read_rounds(text, n_expected, keep, sink, || {
-        pb.set_position(*count.borrow())
-    });
+    // One pass: the library detects gzip, parses, tallies, writes and
+    // digests; this layer only supplies the streams.
+    let result = input::read_round_file(
+        source,
+        &path.display().to_string(),
+        n_expected,
+        gamma,
+        keep,
+        sink,
+        |bytes| pb.set_position(bytes),
+    );
     pb.finish_and_clear();
     // On an error the writer is dropped: its temporary file goes with it.
-    let read = result.map_err(|e| anyhow!("{}: {e}", path.display()))?;
-    let rounds = read.rounds;
-    if rounds != n_expected {
-        bail!(
-            "{}: the record holds {rounds} rounds, but N_rounds = {n_expected} was fixed before the run",
-            path.display()
-        );
-    }
-    let raw_file = match read.sink {
-        RawSink::File(f) => Some(f),
-        RawSink::Discard => None,
-    };
-    let summary = read.tally.summary(gamma)?;
-    let file_digest = hasher.borrow().finalize().to_hex().to_string();
-    let file_bytes = *count.borrow();
+    let read = result.map_err(flat)?;
     Ok(RecordRead {
-        summary,
-        info: RecordInfo {
-            form: "round-file".into(),
-            file_digest: Some(file_digest),
-            file_bytes: Some(file_bytes),
-            compressed,
-            rounds,
-            test_rounds: 0,
-            wins: None,
-            pair_counts: None,
-        },
+        summary: read.summary,
+        info: read.info,
         raw_digest: Some(read.raw_digest),
-        raw_file,
+        raw_file: read.sink,
     })
 }
 
-fn read_counts(path: &Path, gamma: f64) -> Result<Summary> {
+fn read_counts(path: &Path, gamma: f64) -> Result<input::CountsFile> {
     let bytes = sluice::files::keyvalue::read_limited(path, params::MAX_FILE_BYTES, "counts file")
         .with_context(|| format!("cannot read {}", path.display()))?;
-    let mut s = params::read_counts(&bytes[..]).map_err(|e| anyhow!("{}: {e}", path.display()))?;
-    s.add_warnings(gamma);
-    Ok(s)
+    input::read_counts_file(&bytes[..], gamma, &path.display().to_string()).map_err(flat)
 }
 
 fn digest_raw_file(path: &Path, nbits: u64) -> Result<String> {
     let f = File::open(path)
         .with_context(|| format!("cannot open the raw output file {}", path.display()))?;
     let len = f.metadata()?.len();
-    if len != nbits.div_ceil(8) {
-        bail!(
-            "{}: {len} bytes, but the {nbits}-bit string a1 b1 .. aN bN of the counts needs {} bytes",
-            path.display(),
-            nbits.div_ceil(8)
-        );
-    }
-    let mut d = DataDigest::new(nbits);
-    let mut r = BufReader::with_capacity(1 << 20, f);
-    loop {
-        let buf = r.fill_buf()?;
-        if buf.is_empty() {
-            break;
-        }
-        d.update(buf);
-        let n = buf.len();
-        r.consume(n);
-    }
-    Ok(d.finish_hex())
+    let r = BufReader::with_capacity(1 << 20, f);
+    input::digest_raw_string(r, len, nbits, &path.display().to_string()).map_err(flat)
 }
 
 #[derive(Serialize)]
@@ -1177,7 +751,8 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
             (rr.summary, rr.info, rr.raw_digest, rr.raw_file)
         }
         (None, Some(path)) => {
-            let s = read_counts(path, gamma)?;
+            let counts = read_counts(path, gamma)?;
+            let s = counts.summary;
             if s.n_rounds != n {
                 bail!(
                     "{}: rounds = {}, but N_rounds = {n} was fixed before the run",
@@ -1194,8 +769,8 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
             };
             let info = RecordInfo {
                 form: "counts".into(),
-                file_digest: Some(blake3::hash(&std::fs::read(path)?).to_hex().to_string()),
-                file_bytes: std::fs::metadata(path).ok().map(|m| m.len()),
+                file_digest: Some(counts.digest),
+                file_bytes: Some(counts.bytes),
                 compressed: false,
                 rounds: s.n_rounds,
                 test_rounds: s.n_test,
