@@ -721,3 +721,87 @@ fn a_ledgered_run_reads_its_input_once() {
         .collect();
     assert!(temps.is_empty(), "temporary files left: {temps:?}");
 }
+
+/// `verify --seed ID` recomputes with the stored seed where it lives:
+/// nothing is written to the ledger, no disclosure is recorded, and the
+/// seed stays usable; a wrong input or output is still caught.
+#[test]
+fn verify_with_a_stored_seed_records_nothing_and_discloses_nothing() {
+    let dir = tempfile::tempdir().unwrap();
+    let l = dir.path().join("L");
+    let mut rng = Rng(29);
+    let raw = raw_file(dir.path(), "raw.bin", &mut rng);
+    ok(
+        &l,
+        &[
+            "ledger",
+            "commit-raw",
+            raw.to_str().unwrap(),
+            "--origin",
+            "rig",
+        ],
+    );
+    let seed = new_seed(&l, "600", "1e-6");
+    let out = dir.path().join("o.bin");
+    ok(
+        &l,
+        &extract_args(raw.to_str().unwrap(), out.to_str().unwrap(), &seed),
+    );
+    let receipt = format!("{}.receipt.json", out.display());
+    let before = journal(&l);
+    let args = |input: &str, claimed: &str| -> Vec<String> {
+        [
+            "verify",
+            input,
+            "--seed",
+            &seed,
+            "--receipt",
+            &receipt,
+            "--claimed",
+            claimed,
+        ]
+        .iter()
+        .map(|s| s.to_string())
+        .collect()
+    };
+    let a = args(raw.to_str().unwrap(), out.to_str().unwrap());
+    let v = ok(&l, &a.iter().map(String::as_str).collect::<Vec<_>>());
+    assert!(v.starts_with("match"), "{v}");
+    assert_eq!(journal(&l), before, "verify must not write to the ledger");
+    // A flipped output bit is a mismatch (exit 1).
+    let mut bytes = std::fs::read(&out).unwrap();
+    bytes[0] ^= 0x80;
+    let bad = dir.path().join("bad.bin");
+    std::fs::write(&bad, &bytes).unwrap();
+    let a = args(raw.to_str().unwrap(), bad.to_str().unwrap());
+    let o = sluice(&l, &a.iter().map(String::as_str).collect::<Vec<_>>());
+    assert_eq!(
+        o.status.code(),
+        Some(1),
+        "{}",
+        String::from_utf8_lossy(&o.stdout)
+    );
+    // Another raw file is not the receipt's input.
+    let other = raw_file(dir.path(), "other.bin", &mut rng);
+    let a = args(other.to_str().unwrap(), out.to_str().unwrap());
+    let o = sluice(&l, &a.iter().map(String::as_str).collect::<Vec<_>>());
+    assert_eq!(o.status.code(), Some(1));
+    assert!(String::from_utf8_lossy(&o.stdout).contains("MISMATCH"));
+    // The seed was not disclosed: a later run on new raw data may use it.
+    assert_eq!(journal(&l), before);
+    ok(
+        &l,
+        &[
+            "ledger",
+            "commit-raw",
+            other.to_str().unwrap(),
+            "--origin",
+            "rig",
+        ],
+    );
+    let out2 = dir.path().join("o2.bin");
+    ok(
+        &l,
+        &extract_args(other.to_str().unwrap(), out2.to_str().unwrap(), &seed),
+    );
+}

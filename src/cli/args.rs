@@ -224,6 +224,15 @@ pub struct VerifyArgs {
     /// Take the extractor, sizes and blocks from a receipt of `sluice extract`
     #[arg(long, value_name = "FILE", conflicts_with_all = ["extractor", "output_bits", "block_bits", "input_bits"])]
     pub receipt: Option<PathBuf>,
+    /// Recompute with this registered seed, read from the seed store on
+    /// this machine; nothing is written and no disclosure is recorded, so
+    /// the seed stays usable
+    #[arg(long, value_name = "ID", conflicts_with = "seed_file")]
+    pub seed: Option<String>,
+    /// Ledger folder of --seed (default: $SLUICE_LEDGER, else the user's
+    /// data folder)
+    #[arg(long, value_name = "DIR", requires = "seed")]
+    pub ledger: Option<PathBuf>,
 }
 
 fn parse_engine(s: &str) -> Result<Engine, String> {

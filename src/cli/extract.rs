@@ -414,6 +414,9 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
 /// Runs `sluice verify`: exit 0 on match, 1 on mismatch, 2 on bad usage.
 pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
     if super::two_source::wanted(&a.common) {
+        if a.seed.is_some() {
+            bail!("--seed: the two-source extractor has no seed");
+        }
         return super::two_source::run_verify(&a);
     }
     no_second_source(&a.common)?;
@@ -437,6 +440,10 @@ pub fn run_verify(a: VerifyArgs) -> anyhow::Result<ExitCode> {
             .seed_file
             .clone()
             .map(|p| (p, c.seed_format.into(), c.allow_longer_seed)),
+        stored_seed: match &a.seed {
+            Some(id) => Some((super::ledger::ledger_dir(a.ledger.as_deref())?, id.clone())),
+            None => None,
+        },
         claimed: c.files.output(&a.claimed),
     };
     let mut shown = Shown {
