@@ -698,6 +698,22 @@ pub struct Done {
     pub seed_use: Option<SeedUse>,
 }
 
+/// Plans a job without running it: the extractor, output length and seed
+/// length [`execute`] would choose for it with a fresh seed from the
+/// operating system (deficiency 0, no inherited error). Only a job whose
+/// choice is [`Choice::Planned`] has anything to plan.
+pub fn plan(job: &Job) -> Result<AutoPlan, JobError> {
+    match &job.choice {
+        Choice::Planned {
+            security,
+            construction,
+        } => plan_run(job, security, *construction, Some(0.0), 0.0),
+        Choice::Explicit { .. } => {
+            refuse("the job names its extractor and output length: there is nothing to plan")
+        }
+    }
+}
+
 /// Runs a job: plan, seed, (reserve,) hash once, write, receipt, (commit).
 pub fn execute(job: &Job, obs: &mut dyn Observer) -> Result<Done, JobError> {
     if let Some(lu) = &job.ledger {
@@ -1260,6 +1276,26 @@ pub enum Checked {
 
 /// Recomputes a run and compares the claimed output with it.
 pub fn verify(job: &VerifyJob, obs: &mut dyn Observer) -> Result<Checked, JobError> {
+    verify_seeded(job, None, obs)
+}
+
+/// As [`verify`], with the seed's bits given by the caller (its first d
+/// bits are used; `job.seed_file` is ignored): a registered seed read from
+/// the store with [`crate::seed::Store::load`], as a ledgered run reads it,
+/// so that checking an output records no disclosure of the seed.
+pub fn verify_with_seed(
+    job: &VerifyJob,
+    seed: &Bits,
+    obs: &mut dyn Observer,
+) -> Result<Checked, JobError> {
+    verify_seeded(job, Some(seed), obs)
+}
+
+fn verify_seeded(
+    job: &VerifyJob,
+    stored: Option<&Bits>,
+    obs: &mut dyn Observer,
+) -> Result<Checked, JobError> {
     if let Some(want) = &job.input_digest {
         let total = job
             .layout
@@ -1273,7 +1309,8 @@ pub fn verify(job: &VerifyJob, obs: &mut dyn Observer) -> Result<Checked, JobErr
         .seed_file
         .as_ref()
         .map(|(p, f, a)| (p.as_path(), *f, *a));
-    let r = resolve(&job.input, &job.layout, job.engine, None, seed_file)?;
+    let seed_file = if stored.is_some() { None } else { seed_file };
+    let r = resolve(&job.input, &job.layout, job.engine, stored, seed_file)?;
     let bar_total = r.bar_total();
     let run = Run {
         input: r.source,
