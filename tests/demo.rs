@@ -73,7 +73,9 @@ fn demo_steps_hold_together() {
     assert_eq!(s["verify"]["computed_bits"], m);
     // Assessments ran.
     assert_eq!(s["assess"]["raw"]["health_passed"], true);
-    assert!(s["assess"]["raw"]["min_entropy_estimate"].as_f64().is_some());
+    assert!(s["assess"]["raw"]["min_entropy_estimate"]
+        .as_f64()
+        .is_some());
     assert!(s["assess"]["output"]["tests_run"].as_u64().unwrap() >= 5);
     assert!(s["assess"]["output"]["p_values"].as_u64().unwrap() > 0);
     // The ledger verifies, the raw string committed before the seed existed,
@@ -96,7 +98,13 @@ fn demo_steps_hold_together() {
         ]
     );
     // Every file is kept; the secret ones owner-only.
-    for f in ["params.txt", "record.txt", "cert.json", "raw.bin", "output.bin"] {
+    for f in [
+        "params.txt",
+        "record.txt",
+        "cert.json",
+        "raw.bin",
+        "output.bin",
+    ] {
         assert!(keep.join(f).is_file(), "{f} missing");
     }
     assert_eq!(
