@@ -686,6 +686,29 @@ struct CertifyReport<'a> {
 }
 
 fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
+    Ok(certify_record(args, true)?.0)
+}
+
+/// Parses `certify` options as the command line would (`argv` without the
+/// program and command names), for callers that build the command they
+/// print (`sluice demo`).
+pub fn parse_args(argv: &[String]) -> Result<CertifyArgs> {
+    #[derive(clap::Parser)]
+    #[command(name = "sluice certify", no_binary_name = true)]
+    struct Wrapped {
+        #[command(flatten)]
+        args: CertifyArgs,
+    }
+    use clap::Parser;
+    Ok(Wrapped::try_parse_from(argv)
+        .map_err(|e| anyhow!("sluice certify {}: {e}", argv.join(" ")))?
+        .args)
+}
+
+/// Certifies a record (or counts): writes the requested files, prints the
+/// report unless `show` is false, and returns the exit status with the
+/// report as the `--json` document.
+pub fn certify_record(args: &CertifyArgs, show: bool) -> Result<(ExitCode, serde_json::Value)> {
     let setup = args.setup()?;
     let mode = args.mode();
     let public = args.public()?;
@@ -1101,9 +1124,10 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
         raw_file: raw_file_name,
         cautions: cautions(mode).to_vec(),
     };
-    if args.json {
+    let value = serde_json::to_value(&report)?;
+    if show && args.json {
         print_json(&report)?;
-    } else {
+    } else if show {
         print_text(
             &report,
             prot.as_ref(),
@@ -1113,11 +1137,12 @@ fn run_certify(args: &CertifyArgs) -> Result<ExitCode> {
             eps_cert_source,
         )?;
     }
-    Ok(if accepted {
+    let code = if accepted {
         ExitCode::SUCCESS
     } else {
         ExitCode::from(1)
-    })
+    };
+    Ok((code, value))
 }
 
 fn print_text(

@@ -698,6 +698,22 @@ pub struct Done {
     pub seed_use: Option<SeedUse>,
 }
 
+/// Plans a job without running it: the extractor, output length and seed
+/// length [`execute`] would choose for it with a fresh seed from the
+/// operating system (deficiency 0, no inherited error). Only a job whose
+/// choice is [`Choice::Planned`] has anything to plan.
+pub fn plan(job: &Job) -> Result<AutoPlan, JobError> {
+    match &job.choice {
+        Choice::Planned {
+            security,
+            construction,
+        } => plan_run(job, security, *construction, Some(0.0), 0.0),
+        Choice::Explicit { .. } => {
+            refuse("the job names its extractor and output length: there is nothing to plan")
+        }
+    }
+}
+
 /// Runs a job: plan, seed, (reserve,) hash once, write, receipt, (commit).
 pub fn execute(job: &Job, obs: &mut dyn Observer) -> Result<Done, JobError> {
     if let Some(lu) = &job.ledger {
