@@ -120,7 +120,7 @@ pub fn run(a: DemoArgs) -> anyhow::Result<ExitCode> {
         },
         input_bits: None,
         extractor: &plan,
-        seed: &seed,
+        seed: (&seed).into(),
         output: BitFile {
             path: out_path.clone(),
             format: Format::Packed,
