@@ -373,7 +373,7 @@ impl<W: Write> BitWriter<W> {
 }
 
 /// Bytes a [`PackedFileSource`] reads at once (its buffer holds no more).
-pub const SOURCE_PIECE_BYTES: usize = 1 << 20;
+pub const SOURCE_PIECE_BYTES: usize = 1 << 18;
 
 /// A packed bit file read by ranges (positioned reads, no seeking state):
 /// the [`super::source::BitSource`] of a whole-run hash's input or seed

@@ -122,12 +122,12 @@ enum Layout {
 #[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
 pub struct Estimate {
     /// Peak working memory in bytes: the buffers of the layout (the parts
-    /// of input, seed and output it holds, the transforms), the read and
-    /// write buffers ([`IO_BYTES`]), and [`held_bytes`](Self::held_bytes).
+    /// of input, seed and output it holds, the transforms, the buffer of
+    /// unaligned reads), and what is held [`beside`](Self::beside).
     pub memory_bytes: u64,
-    /// Bytes held in memory beside the run for its whole length (a seed
-    /// given in memory rather than read from a file; 0 otherwise).
-    pub held_bytes: u64,
+    /// Held in memory beside the layout for the run's whole length (a seed
+    /// given in memory rather than read from a file, file buffers).
+    pub beside: Beside,
     /// Whether input and seed are held whole in memory.
     pub in_memory: bool,
     /// Input bits per tile (the whole Toeplitz part in memory).
@@ -155,13 +155,18 @@ pub struct WholeRun {
     estimate: Estimate,
 }
 
-/// Bytes of the buffers that move bits between the files and the layout,
-/// counted in every estimate: the unaligned-read buffer of
-/// [`read_virtual`] (8 MiB), the byte buffers of the input and seed file
-/// sources ([`crate::bits::io::SOURCE_PIECE_BYTES`] each), the digests'
-/// byte buffers (1 MiB each, and 1 MiB for the words read again at the
-/// end), the output file's write buffer (1 MiB), with room to spare.
-pub const IO_BYTES: u64 = 16 << 20;
+/// The unaligned-read buffer of [`read_virtual`], counted in every layout.
+const READ_TMP_BYTES: u64 = 8 * (crate::bits::source::READ_PIECE_WORDS as u64 + 1);
+
+/// Memory held beside a whole run's layout for its whole length (by the
+/// caller, or by its sources and sink), counted in its estimate.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, serde::Serialize)]
+pub struct Beside {
+    /// A seed held in memory (0 when it is read piece by piece).
+    pub seed_bytes: u64,
+    /// Buffers of the sources and the sink (files).
+    pub buffer_bytes: u64,
+}
 
 /// Smallest transform tried for tiles (`2^12` points, 128 Kibit tiles).
 const MIN_LOG_POINTS: u32 = 12;
@@ -180,20 +185,22 @@ impl WholeRun {
         engine: Engine,
         memory_limit: u64,
     ) -> Result<WholeRun, Error> {
-        Self::new_holding(family, n, m, engine, memory_limit, 0)
+        Self::new_holding(family, n, m, engine, memory_limit, Beside::default())
     }
 
-    /// As [`new`](Self::new), with `held` bytes held in memory beside the
-    /// run for its whole length (a seed in memory): counted in every
-    /// layout's memory, so the layouts get `memory_limit - held`.
+    /// As [`new`](Self::new), with `beside` held in memory beside the run
+    /// for its whole length (a seed in memory, file buffers): counted in
+    /// every layout's memory, so the layouts get what is left of
+    /// `memory_limit`.
     pub fn new_holding(
         family: Family,
         n: u64,
         m: u64,
         engine: Engine,
         memory_limit: u64,
-        held: u64,
+        beside: Beside,
     ) -> Result<WholeRun, Error> {
+        let held = beside.seed_bytes.saturating_add(beside.buffer_bytes);
         let sizes = |why| Error::Sizes {
             family: family.name(),
             n,
@@ -220,7 +227,7 @@ impl WholeRun {
         let mut options: Vec<(Layout, Estimate)> = Vec::new();
         let mut smallest: Option<(u64, String)> = None;
         let mut consider = |layout: Layout, mut est: Estimate| {
-            est.held_bytes = held;
+            est.beside = beside;
             est.memory_bytes = est.memory_bytes.saturating_add(held);
             let text = describe(&est);
             if smallest.as_ref().is_none_or(|(b, _)| est.memory_bytes < *b) {
@@ -265,7 +272,10 @@ impl WholeRun {
                 needed,
                 limit: memory_limit,
                 layout,
-                hint: match (matches!(resolved, Engine::Additive(_)), held > 0) {
+                hint: match (
+                    matches!(resolved, Engine::Additive(_)),
+                    beside.seed_bytes > 0,
+                ) {
                     (true, false) => "Allow more memory (--memory-limit), or shorten the output (--output-bits; fewer bits per tile row).",
                     (true, true) => "Give the seed as a packed file (read piece by piece, never held whole), allow more memory (--memory-limit), or shorten the output (--output-bits).",
                     (false, false) => "Use the additive-FFT engine (--engine auto or additive; it works in tiles), or allow more memory (--memory-limit).",
@@ -474,10 +484,10 @@ fn describe(e: &Estimate) -> String {
             e.block_bits, e.chunk_bits, e.input_passes
         )
     };
-    if e.held_bytes > 0 {
+    if e.beside.seed_bytes > 0 {
         t.push_str(&format!(
             ", beside {} of seed held in memory",
-            mib(e.held_bytes)
+            mib(e.beside.seed_bytes)
         ));
     }
     t
@@ -494,15 +504,15 @@ fn in_memory_estimate(family: Family, n: u64, m: u64, tn: u64, w: &Window) -> Es
     // seed, the scratch, the input and the output together; then the
     // output beside its packed copy for the writer (or the claimed output
     // verify compares it with) and the head of a modified Toeplitz block.
-    // The read and write buffers throughout.
+    // The buffer of unaligned reads throughout.
     let bytes = |bits: u64| 8 * bits.div_ceil(64);
     let at_prepare = work_b / 2 + bytes(seed);
     let at_compute = work_b + bytes(tn) + bytes(m);
     let at_write = 3 * bytes(m);
     let lg = points.max(2).ilog2() as f64;
     Estimate {
-        memory_bytes: at_prepare.max(at_compute).max(at_write) + IO_BYTES,
-        held_bytes: 0,
+        memory_bytes: at_prepare.max(at_compute).max(at_write) + READ_TMP_BYTES,
+        beside: Beside::default(),
         in_memory: true,
         block_bits: tn,
         chunk_bits: m,
@@ -521,12 +531,12 @@ fn tiles_estimate(tn: u64, m: u64, b: u64, c: u64, w: &AfftWindow) -> Estimate {
     // acc, the input's transform, the prepared seed; the input block, the
     // seed segment; the chunk, the head of a modified Toeplitz chunk and
     // the chunk's packed copy for the writer (or the claimed chunk verify
-    // compares it with); the read and write buffers.
-    let memory = 24 * points + bytes(b) + bytes(b + c - 1) + 3 * bytes(c) + IO_BYTES;
+    // compares it with); the buffer of unaligned reads.
+    let memory = 24 * points + bytes(b) + bytes(b + c - 1) + 3 * bytes(c) + READ_TMP_BYTES;
     let lg = points.ilog2() as f64;
     Estimate {
         memory_bytes: memory,
-        held_bytes: 0,
+        beside: Beside::default(),
         in_memory: false,
         block_bits: b,
         chunk_bits: c,

@@ -557,12 +557,6 @@ pub fn resolve(
     if m == 0 {
         return refuse("--output-bits 0: the output must hold at least 1 bit");
     }
-    // One block in, one block out, in memory at once: checked before
-    // anything is allocated.
-    crate::files::space::check_bits(
-        n as u128 + m as u128,
-        &format!("a block of {n} input bits and {m} output bits"),
-    )?;
     use crate::extract::spec::Family;
     match l.family {
         Family::Toeplitz if m > n => return refuse(format!(
@@ -595,6 +589,16 @@ pub fn resolve(
         )),
         e => e.into(),
     })?;
+    // One block in, one block out, in memory at once: checked before
+    // anything is allocated. A whole-run block holds neither (its plan is
+    // checked against the memory limit instead).
+    let whole = super::whole_run_input_of(plan.as_ref(), &source, l.input_bits).is_some();
+    if !whole {
+        crate::files::space::check_bits(
+            n as u128 + m as u128,
+            &format!("a block of {n} input bits and {m} output bits"),
+        )?;
+    }
     let seed = match (stored, seed_file) {
         // A registered seed: its first d bits (hashing spec 4.1: blocks use
         // a prefix of the one seed).
@@ -609,7 +613,6 @@ pub fn resolve(
             SeedInput::Memory(s.slice(0, plan.seed_bits()))
         }
         (None, Some((path, format, allow_longer))) => {
-            let whole = super::whole_run_input_of(plan.as_ref(), &source, l.input_bits).is_some();
             // A whole-run block streams a packed seed file, as it streams
             // its input: the seed is never held whole.
             let streamed = if whole && format == Format::Packed {

@@ -20,7 +20,7 @@ use crate::bits::io::PackedFileSource;
 use crate::bits::io::{open_input, BitWriter, BlockReader};
 use crate::bits::source::WordsSource;
 use crate::bits::{BitOrder, Bits, Error as BitsError, ErrorKind as BitsErrorKind, Format};
-use crate::extract::whole_run::{Family, WholeRun};
+use crate::extract::whole_run::{Beside, Family, WholeRun};
 use crate::extract::{Engine, Extractor, SeededExtractor};
 use crate::files::{fault, AtomicFile, Kind, Replace};
 use rayon::prelude::*;
@@ -341,6 +341,23 @@ const BATCH_BYTES: usize = 256 << 20;
 /// from a packed file goes through [`crate::extract::whole_run`] (input read
 /// piece by piece, output written chunk by chunk, memory bounded).
 pub const WHOLE_RUN_MIN_BITS: usize = 1 << 24;
+
+/// Bytes of the buffers between the files and a whole-run block, held
+/// beside its layout: the byte buffers of the input and seed file sources
+/// ([`crate::bits::io::SOURCE_PIECE_BYTES`] each), the digests' byte
+/// buffers and the words read again at the end (`FEED_WORDS` words each),
+/// the output file's write buffer (1 MiB) or the claimed output's reader
+/// (verify), with room to spare.
+pub const WHOLE_RUN_BUFFER_BYTES: u64 = 4 << 20;
+
+/// What a whole-run block of a run holds beside its layout: `seed` bytes
+/// of seed in memory, and the file buffers.
+fn beside(seed: u64) -> Beside {
+    Beside {
+        seed_bytes: seed,
+        buffer_bytes: WHOLE_RUN_BUFFER_BYTES,
+    }
+}
 
 static MEMORY_LIMIT: AtomicU64 = AtomicU64::new(0);
 
@@ -702,8 +719,14 @@ impl Run<'_> {
             self.extractor.output_bits() as u64,
         );
         let engine = self.extractor.engine().unwrap_or(Engine::Auto);
-        let plan =
-            WholeRun::new_holding(family, n, m, engine, memory_limit(), self.seed.held_bytes())?;
+        let plan = WholeRun::new_holding(
+            family,
+            n,
+            m,
+            engine,
+            memory_limit(),
+            beside(self.seed.held_bytes()),
+        )?;
         let mut file = PackedFileSource::open(path, n, order).map_err(Error::Input)?;
         // The input's data digest (of all `total` bits) from the words the
         // run reads, as far as its first pass reads them in order.
@@ -819,7 +842,7 @@ pub(crate) fn whole_run_plan_of(
             extractor.output_bits() as u64,
             engine,
             memory_limit(),
-            held,
+            beside(held),
         )
         .map_err(Error::from),
     )
@@ -833,7 +856,7 @@ pub(crate) fn whole_run_plan_of(
 /// modified Toeplitz block, read before its head; the bits after the block)
 /// is read again by [`finish`](Self::finish).
 /// Words a [`DigestingSource`] turns into bytes at once.
-const FEED_WORDS: usize = 1 << 17;
+const FEED_WORDS: usize = 1 << 15;
 
 struct DigestingSource<'a> {
     inner: &'a mut dyn crate::bits::source::BitSource,
@@ -880,7 +903,7 @@ impl<'a> DigestingSource<'a> {
         let words = self.total.div_ceil(64);
         if self.next < words {
             let mut file = PackedFileSource::open(path, self.total, order)?;
-            let mut buf = vec![0u64; 1 << 17];
+            let mut buf = vec![0u64; FEED_WORDS];
             while self.next < words {
                 let k = (words - self.next).min(buf.len() as u64) as usize;
                 file.read_words(self.next, &mut buf[..k])
