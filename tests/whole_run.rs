@@ -135,7 +135,7 @@ fn a_streamed_seed_gives_the_bits_and_digest_of_the_seed_in_memory() {
     use sluice::bits::digest::data_digest;
     use sluice::bits::Format;
     use sluice::extract::whole_run::Error as WholeError;
-    use sluice::pipeline::{set_memory_limit, BitFile, Error, Run, RunSeed, Source};
+    use sluice::pipeline::{set_memory_limit, BitFile, Error, RunSeed};
     let d = tempfile::tempdir().unwrap();
     let be = Backend::detect();
     let (n, m) = ((1usize << 24) + 12_345, 3_000_017usize);
@@ -148,36 +148,35 @@ fn a_streamed_seed_gives_the_bits_and_digest_of_the_seed_in_memory() {
         order: BitOrder::Msb,
     };
     for family in ["toeplitz", "modified-toeplitz"] {
-        let (ext, kara): (Box<dyn Extractor>, Box<dyn Extractor>) = if family == "toeplitz" {
-            (
-                Box::new(Toeplitz::with_engine(n, m, Engine::Auto).unwrap()),
-                Box::new(Toeplitz::with_engine(n, m, Engine::Clmul(be)).unwrap()),
-            )
-        } else {
-            (
-                Box::new(ModifiedToeplitz::with_engine(n, m, Engine::Auto).unwrap()),
-                Box::new(ModifiedToeplitz::with_engine(n, m, Engine::Clmul(be)).unwrap()),
-            )
+        let make = |e: Engine| -> Box<dyn Extractor> {
+            if family == "toeplitz" {
+                Box::new(Toeplitz::with_engine(n, m, e).unwrap())
+            } else {
+                Box::new(ModifiedToeplitz::with_engine(n, m, e).unwrap())
+            }
         };
+        // The Karatsuba engine: the reference, and a whole run in memory.
+        let (ext, kara) = (make(Engine::Auto), make(Engine::Clmul(be)));
         let s = pseudo(22, ext.seed_bits());
         let sp = d.path().join("s.bin");
         write(&sp, &s);
         let mut want = Bits::zeros(m);
         kara.extract(&x, &s, &mut want);
-        let run = |seed: RunSeed<'_>, out: &str| Run {
-            input: Source::File(file("x.bin")),
-            input_bits: Some(n as u64),
-            extractor: ext.as_ref(),
-            seed,
-            output: file(out),
-        };
+        let (ext, kara) = (ext.as_ref(), kara.as_ref());
         let streamed = RunSeed::Packed {
             path: &sp,
             bits: s.len() as u64,
         };
-        // In memory (1 GiB), tiles in one pass, tiles in several passes.
+        // In memory (Karatsuba), one pass (1 GiB; tiles or in memory),
+        // tiles in one pass, tiles in several passes.
         let mut passes = Vec::new();
-        for limit in [1u64 << 30, 24 << 20, 7 << 20] {
+        for (e, limit) in [
+            (kara, 1u64 << 30),
+            (ext, 1 << 30),
+            (ext, 24 << 20),
+            (ext, 7 << 20),
+        ] {
+            let run = |seed, out: &str| run_of(e, file("x.bin"), n, seed, file(out));
             set_memory_limit(limit);
             let plan = run(streamed, "y.bin").whole_run_plan().unwrap().unwrap();
             let est = plan.estimate();
@@ -218,9 +217,13 @@ fn a_streamed_seed_gives_the_bits_and_digest_of_the_seed_in_memory() {
             }
         }
         set_memory_limit(0);
-        assert!(passes[0].0, "{passes:?}");
-        assert!(!passes[1].0, "{passes:?}");
-        assert!(passes[2].1 > 1, "several passes: {passes:?}");
+        assert_eq!(passes[0], (true, 1), "{passes:?}");
+        assert_eq!(passes[1].1, 1, "{passes:?}");
+        assert_eq!(passes[2], (false, 1), "{passes:?}");
+        assert!(
+            !passes[3].0 && passes[3].1 > 1,
+            "several passes: {passes:?}"
+        );
     }
 }
 
@@ -355,6 +358,22 @@ fn receipts_record_the_same_seed_digest_streamed_or_loaded() {
     );
     let o = explicit("s.bin", true);
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+}
+
+fn run_of<'a>(
+    extractor: &'a dyn Extractor,
+    input: sluice::pipeline::BitFile,
+    n: usize,
+    seed: sluice::pipeline::RunSeed<'a>,
+    output: sluice::pipeline::BitFile,
+) -> sluice::pipeline::Run<'a> {
+    sluice::pipeline::Run {
+        input: sluice::pipeline::Source::File(input),
+        input_bits: Some(n as u64),
+        extractor,
+        seed,
+        output,
+    }
 }
 
 fn hex_of(bytes: &[u8]) -> String {
