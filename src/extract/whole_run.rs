@@ -490,6 +490,12 @@ fn describe(e: &Estimate) -> String {
             mib(e.beside.seed_bytes)
         ));
     }
+    if e.beside.buffer_bytes > 0 {
+        t.push_str(&format!(
+            ", with {} of file buffers",
+            mib(e.beside.buffer_bytes)
+        ));
+    }
     t
 }
 
