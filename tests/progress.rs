@@ -171,7 +171,7 @@ fn pipeline_passes_on_reports_from_inside_a_block() {
         },
         input_bits: None,
         extractor: &ext,
-        seed: &seed,
+        seed: (&seed).into(),
         output: BitFile {
             path: dir.path().join("out"),
             format: Format::Packed,

@@ -372,6 +372,9 @@ impl<W: Write> BitWriter<W> {
     }
 }
 
+/// Bytes a [`PackedFileSource`] reads at once (its buffer holds no more).
+pub const SOURCE_PIECE_BYTES: usize = 1 << 18;
+
 /// A packed bit file read by ranges (positioned reads, no seeking state):
 /// the [`super::source::BitSource`] of a whole-run hash's input or seed
 /// when it is not held in memory.
@@ -422,15 +425,25 @@ impl super::source::BitSource for PackedFileSource {
             return Ok(());
         }
         let k = ((total - start) as usize).min(8 * out.len());
-        self.bytes.clear();
-        self.bytes.resize(k, 0);
-        read_exact_at(&self.file, &mut self.bytes, start).map_err(|e| {
-            std::io::Error::new(
-                e.kind(),
-                format!("{}: byte {start}: {e}", self.path.display()),
-            )
-        })?;
-        pack_bytes_into_words(&self.bytes, self.order, out);
+        // In pieces of at most SOURCE_PIECE_BYTES (whole words), so the
+        // byte buffer stays small however long the read.
+        let mut done = 0usize;
+        while done < k {
+            let take = (k - done).min(SOURCE_PIECE_BYTES);
+            let at = start + done as u64;
+            self.bytes.clear();
+            self.bytes.resize(take, 0);
+            read_exact_at(&self.file, &mut self.bytes, at).map_err(|e| {
+                std::io::Error::new(e.kind(), format!("{}: byte {at}: {e}", self.path.display()))
+            })?;
+            let w0 = done / 8;
+            pack_bytes_into_words(
+                &self.bytes,
+                self.order,
+                &mut out[w0..w0 + words_for(take * 8)],
+            );
+            done += take;
+        }
         // Bits at or beyond the length read as zero.
         let end_bit = self.bits.saturating_sub(64 * first);
         if end_bit < 64 * out.len() as u64 {

@@ -50,6 +50,10 @@ impl BitSource for WordsSource<'_> {
     }
 }
 
+/// Words [`read_virtual`] reads at once through its `tmp` buffer when the
+/// read is not word-aligned (the buffer holds at most one more).
+pub const READ_PIECE_WORDS: usize = 1 << 15;
+
 /// Reads bits `start .. start + len` of a *virtual* string into `out`
 /// (`words_for(len)` words, bits beyond `len` cleared): the source's bit
 /// `j` sits at virtual position `j + shift`, and every virtual position
@@ -85,7 +89,7 @@ pub fn read_virtual(
         return Ok(());
     }
     // Unaligned: through `tmp`, at most PIECE words at a time.
-    const PIECE: usize = 1 << 20;
+    const PIECE: usize = READ_PIECE_WORDS;
     let mut done = 0usize;
     while done < k {
         let take = (k - done).min(64 * (PIECE - 1));

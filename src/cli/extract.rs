@@ -169,12 +169,27 @@ fn whole_run_line(plan: &WholeRun) -> String {
         )
     };
     let secs = sluice::extract::whole_run::seconds_per_work(plan.engine()) * e.work;
+    let size = |b: u64| {
+        if b >= 1 << 30 {
+            format!("{:.1} GiB", b as f64 / (1u64 << 30) as f64)
+        } else {
+            format!("{:.0} MiB", (b as f64 / (1u64 << 20) as f64).ceil())
+        }
+    };
+    let seed = if e.beside.seed_bytes > 0 {
+        format!(
+            ", {} of it the seed held in memory",
+            size(e.beside.seed_bytes)
+        )
+    } else {
+        String::new()
+    };
     format!(
-        "one block of {} bits as a whole run on engine {}: {layout}; about {:.1} GiB of working memory (limit {:.1} GiB) and {}",
+        "one block of {} bits as a whole run on engine {}: {layout}; about {} of working memory{seed} (limit {}) and {}",
         plan.input_bits(),
         plan.engine(),
-        e.memory_bytes as f64 / (1u64 << 30) as f64,
-        sluice::pipeline::memory_limit() as f64 / (1u64 << 30) as f64,
+        size(e.memory_bytes),
+        size(sluice::pipeline::memory_limit()),
         if e.work > 0.0 {
             format!("about {secs:.0} s of hashing")
         } else {

@@ -121,9 +121,13 @@ enum Layout {
 /// What a planned run needs.
 #[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
 pub struct Estimate {
-    /// Peak working memory in bytes (buffers of the layout, including the
-    /// parts of input, seed and output it holds).
+    /// Peak working memory in bytes: the buffers of the layout (the parts
+    /// of input, seed and output it holds, the transforms, the buffer of
+    /// unaligned reads), and what is held [`beside`](Self::beside).
     pub memory_bytes: u64,
+    /// Held in memory beside the layout for the run's whole length (a seed
+    /// given in memory rather than read from a file, file buffers).
+    pub beside: Beside,
     /// Whether input and seed are held whole in memory.
     pub in_memory: bool,
     /// Input bits per tile (the whole Toeplitz part in memory).
@@ -151,6 +155,19 @@ pub struct WholeRun {
     estimate: Estimate,
 }
 
+/// The unaligned-read buffer of [`read_virtual`], counted in every layout.
+const READ_TMP_BYTES: u64 = 8 * (crate::bits::source::READ_PIECE_WORDS as u64 + 1);
+
+/// Memory held beside a whole run's layout for its whole length (by the
+/// caller, or by its sources and sink), counted in its estimate.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, serde::Serialize)]
+pub struct Beside {
+    /// A seed held in memory (0 when it is read piece by piece).
+    pub seed_bytes: u64,
+    /// Buffers of the sources and the sink (files).
+    pub buffer_bytes: u64,
+}
+
 /// Smallest transform tried for tiles (`2^12` points, 128 Kibit tiles).
 const MIN_LOG_POINTS: u32 = 12;
 /// The additive FFT's limit (`2^32` points).
@@ -168,6 +185,22 @@ impl WholeRun {
         engine: Engine,
         memory_limit: u64,
     ) -> Result<WholeRun, Error> {
+        Self::new_holding(family, n, m, engine, memory_limit, Beside::default())
+    }
+
+    /// As [`new`](Self::new), with `beside` held in memory beside the run
+    /// for its whole length (a seed in memory, file buffers): counted in
+    /// every layout's memory, so the layouts get what is left of
+    /// `memory_limit`.
+    pub fn new_holding(
+        family: Family,
+        n: u64,
+        m: u64,
+        engine: Engine,
+        memory_limit: u64,
+        beside: Beside,
+    ) -> Result<WholeRun, Error> {
+        let held = beside.seed_bytes.saturating_add(beside.buffer_bytes);
         let sizes = |why| Error::Sizes {
             family: family.name(),
             n,
@@ -193,7 +226,9 @@ impl WholeRun {
         let resolved = engine.resolve(tn as usize, m as usize);
         let mut options: Vec<(Layout, Estimate)> = Vec::new();
         let mut smallest: Option<(u64, String)> = None;
-        let mut consider = |layout: Layout, est: Estimate| {
+        let mut consider = |layout: Layout, mut est: Estimate| {
+            est.beside = beside;
+            est.memory_bytes = est.memory_bytes.saturating_add(held);
             let text = describe(&est);
             if smallest.as_ref().is_none_or(|(b, _)| est.memory_bytes < *b) {
                 smallest = Some((est.memory_bytes, text));
@@ -237,10 +272,14 @@ impl WholeRun {
                 needed,
                 limit: memory_limit,
                 layout,
-                hint: if matches!(resolved, Engine::Additive(_)) {
-                    "Allow more memory, or shorten the output (fewer bits per tile row)."
-                } else {
-                    "Use the additive-FFT engine (it works in tiles), or allow more memory."
+                hint: match (
+                    matches!(resolved, Engine::Additive(_)),
+                    beside.seed_bytes > 0,
+                ) {
+                    (true, false) => "Allow more memory (--memory-limit), or shorten the output (--output-bits; fewer bits per tile row).",
+                    (true, true) => "Give the seed as a packed file (read piece by piece, never held whole), allow more memory (--memory-limit), or shorten the output (--output-bits).",
+                    (false, false) => "Use the additive-FFT engine (--engine auto or additive; it works in tiles), or allow more memory (--memory-limit).",
+                    (false, true) => "Use the additive-FFT engine (--engine auto or additive; it works in tiles), give the seed as a packed file (read piece by piece), or allow more memory (--memory-limit).",
                 },
             });
         };
@@ -437,14 +476,27 @@ pub fn seconds_per_work(engine: Engine) -> f64 {
 }
 
 fn describe(e: &Estimate) -> String {
-    if e.in_memory {
-        "input and seed in memory".into()
+    let mut t = if e.in_memory {
+        "input and seed in memory".to_string()
     } else {
         format!(
             "tiles of {} input by {} output bits, {} pass(es) over the input",
             e.block_bits, e.chunk_bits, e.input_passes
         )
+    };
+    if e.beside.seed_bytes > 0 {
+        t.push_str(&format!(
+            ", beside {} of seed held in memory",
+            mib(e.beside.seed_bytes)
+        ));
     }
+    if e.beside.buffer_bytes > 0 {
+        t.push_str(&format!(
+            ", with {} of file buffers",
+            mib(e.beside.buffer_bytes)
+        ));
+    }
+    t
 }
 
 fn in_memory_estimate(family: Family, n: u64, m: u64, tn: u64, w: &Window) -> Estimate {
@@ -455,13 +507,18 @@ fn in_memory_estimate(family: Family, n: u64, m: u64, tn: u64, w: &Window) -> Es
     let points = w.transform_points() as u64;
     let work_b = w.working_bytes() as u64;
     // Peak: the prepared seed beside the raw seed words, or the prepared
-    // seed, the scratch, the input and the output together.
+    // seed, the scratch, the input and the output together; then the
+    // output beside its packed copy for the writer (or the claimed output
+    // verify compares it with) and the head of a modified Toeplitz block.
+    // The buffer of unaligned reads throughout.
     let bytes = |bits: u64| 8 * bits.div_ceil(64);
     let at_prepare = work_b / 2 + bytes(seed);
     let at_compute = work_b + bytes(tn) + bytes(m);
+    let at_write = 3 * bytes(m);
     let lg = points.max(2).ilog2() as f64;
     Estimate {
-        memory_bytes: at_prepare.max(at_compute),
+        memory_bytes: at_prepare.max(at_compute).max(at_write) + READ_TMP_BYTES,
+        beside: Beside::default(),
         in_memory: true,
         block_bits: tn,
         chunk_bits: m,
@@ -478,15 +535,14 @@ fn tiles_estimate(tn: u64, m: u64, b: u64, c: u64, w: &AfftWindow) -> Estimate {
     let blocks = tn.div_ceil(b);
     let bytes = |bits: u64| 8 * bits.div_ceil(64);
     // acc, the input's transform, the prepared seed; the input block, the
-    // seed segment, the chunk, an 8 MiB read buffer and the head of a
-    // modified Toeplitz chunk (at most the chunk).
-    let memory = 24 * points
-        + bytes(b)
-        + 2 * bytes(c)
-        + bytes(b + c).saturating_mul(2).min(bytes(b + c) + (8 << 20));
+    // seed segment; the chunk, the head of a modified Toeplitz chunk and
+    // the chunk's packed copy for the writer (or the claimed chunk verify
+    // compares it with); the buffer of unaligned reads.
+    let memory = 24 * points + bytes(b) + bytes(b + c - 1) + 3 * bytes(c) + READ_TMP_BYTES;
     let lg = points.ilog2() as f64;
     Estimate {
         memory_bytes: memory,
+        beside: Beside::default(),
         in_memory: false,
         block_bits: b,
         chunk_bits: c,
@@ -615,7 +671,10 @@ mod tests {
                     .unwrap()
                     .estimate()
                     .memory_bytes;
-                for limit in [1 << 40, full - 1, full / 2, full / 4, full / 8] {
+                // Every layout holds the buffer of unaligned reads: the
+                // rest is what shrinks.
+                let part = |k: u64| READ_TMP_BYTES + (full - READ_TMP_BYTES) / k;
+                for limit in [1 << 40, full - 1, part(2), part(4), part(8)] {
                     let r = match WholeRun::new(family, n, m, Engine::Additive(be), limit) {
                         Ok(r) => r,
                         Err(Error::Memory { .. }) => continue,

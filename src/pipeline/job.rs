@@ -23,7 +23,10 @@
 use super::ledgered::{self, UseSpec};
 use super::receipt::{self, Receipt};
 use super::security::{plan_error, speed_model, Security};
-use super::{count_bits, digest_prefix, read_seed, BitFile, Report, Run, SeedFileError, Source};
+use super::{
+    count_bits, digest_prefix, read_seed, stream_seed, BitFile, Report, Run, SeedFileError,
+    SeedInput, Source,
+};
 use crate::bits::{Bits, Format};
 use crate::certify::certificate::Certificate;
 use crate::extract::spec::SpecError;
@@ -467,8 +470,9 @@ pub struct Resolved {
     pub spec: ExtractorSpec,
     /// The planned extractor.
     pub plan: Box<dyn Extractor>,
-    /// The seed.
-    pub seed: Bits,
+    /// The seed: in memory, or (an explicit packed seed file of a
+    /// whole-run block) left on disk to be streamed.
+    pub seed: SeedInput,
     /// The input.
     pub source: Source,
     /// Use only the first this many input bits.
@@ -570,12 +574,6 @@ pub fn resolve(
     if m == 0 {
         return refuse("--output-bits 0: the output must hold at least 1 bit");
     }
-    // One block in, one block out, in memory at once: checked before
-    // anything is allocated.
-    crate::files::space::check_bits(
-        n as u128 + m as u128,
-        &format!("a block of {n} input bits and {m} output bits"),
-    )?;
     use crate::extract::spec::Family;
     match l.family {
         Family::Toeplitz if m > n => return refuse(format!(
@@ -608,6 +606,16 @@ pub fn resolve(
         )),
         e => e.into(),
     })?;
+    // One block in, one block out, in memory at once: checked before
+    // anything is allocated. A whole-run block holds neither (its plan is
+    // checked against the memory limit instead).
+    let whole = super::whole_run_input_of(plan.as_ref(), &source, l.input_bits).is_some();
+    if !whole {
+        crate::files::space::check_bits(
+            n as u128 + m as u128,
+            &format!("a block of {n} input bits and {m} output bits"),
+        )?;
+    }
     let seed = match (stored, seed_file) {
         // A registered seed: its first d bits (hashing spec 4.1: blocks use
         // a prefix of the one seed).
@@ -619,10 +627,33 @@ pub fn resolve(
                     plan.seed_bits()
                 ));
             }
-            s.slice(0, plan.seed_bits())
+            SeedInput::Memory(s.slice(0, plan.seed_bits()))
         }
         (None, Some((path, format, allow_longer))) => {
-            read_seed(path, format, plan.seed_bits(), allow_longer)?
+            // A whole-run block streams a packed seed file, as it streams
+            // its input: the seed is never held whole.
+            let streamed = if whole && format == Format::Packed {
+                stream_seed(path, plan.seed_bits(), allow_longer)?
+            } else {
+                None
+            };
+            match streamed {
+                Some(s) => s,
+                None => {
+                    if whole {
+                        // Any other seed file is read whole and held beside
+                        // the run's working memory: a run that cannot fit
+                        // with it is refused before it is read.
+                        let held = 8 * plan.seed_bits().div_ceil(64) as u64;
+                        if let Some(Err(e)) =
+                            super::whole_run_plan_of(plan.as_ref(), &source, l.input_bits, held)
+                        {
+                            return Err(e.into());
+                        }
+                    }
+                    SeedInput::Memory(read_seed(path, format, plan.seed_bits(), allow_longer)?)
+                }
+            }
         }
         (None, None) => {
             return refuse("give a seed: --seed-file FILE or --seed ID (extract: also --new-seed)")
@@ -781,7 +812,7 @@ pub fn execute(job: &Job, obs: &mut dyn Observer) -> Result<Done, JobError> {
         input: r.source,
         input_bits: r.input_bits,
         extractor: r.plan.as_ref(),
-        seed: &r.seed,
+        seed: r.seed.as_run(),
         output: job.output.clone(),
     };
     announce_whole_run(&run, obs)?;
@@ -827,7 +858,7 @@ pub fn execute(job: &Job, obs: &mut dyn Observer) -> Result<Done, JobError> {
             None
         };
         let seed = SeedRecordInput::File {
-            digest: crate::bits::digest::data_digest(&r.seed),
+            digest: r.seed.data_digest(&report),
             own_record: sec.own_seed_record,
         };
         write_receipt(
@@ -959,7 +990,7 @@ fn execute_ledgered(job: &Job, lu: &LedgerUse, obs: &mut dyn Observer) -> Result
         input: r.source,
         input_bits: r.input_bits,
         extractor: r.plan.as_ref(),
-        seed: &r.seed,
+        seed: r.seed.as_run(),
         output: job.output.clone(),
     };
     // A whole run that does not fit is refused before a seed is prepared.
@@ -1304,7 +1335,7 @@ pub fn verify(job: &VerifyJob, obs: &mut dyn Observer) -> Result<Checked, JobErr
         input: r.source,
         input_bits: r.input_bits,
         extractor: r.plan.as_ref(),
-        seed: &r.seed,
+        seed: r.seed.as_run(),
         output: job.claimed.clone(),
     };
     announce_whole_run(&run, obs)?;

@@ -20,7 +20,7 @@ use crate::bits::io::PackedFileSource;
 use crate::bits::io::{open_input, BitWriter, BlockReader};
 use crate::bits::source::WordsSource;
 use crate::bits::{BitOrder, Bits, Error as BitsError, ErrorKind as BitsErrorKind, Format};
-use crate::extract::whole_run::{Family, WholeRun};
+use crate::extract::whole_run::{Beside, Family, WholeRun};
 use crate::extract::{Engine, Extractor, SeededExtractor};
 use crate::files::{fault, AtomicFile, Kind, Replace};
 use rayon::prelude::*;
@@ -136,6 +136,109 @@ impl Blocks<'_> {
     }
 }
 
+/// A run's seed: bits in memory, or a packed seed file that a whole-run
+/// block reads piece by piece (never held whole; any other run loads it).
+#[derive(Clone, Copy, Debug)]
+pub enum RunSeed<'a> {
+    /// The bits (exactly the extractor's seed length).
+    Memory(&'a Bits),
+    /// The first `bits` bits of a packed seed file (MSB first, as every
+    /// seed file), `bits` the extractor's seed length.
+    Packed {
+        /// The seed file.
+        path: &'a Path,
+        /// Bits used.
+        bits: u64,
+    },
+}
+
+impl<'a> From<&'a Bits> for RunSeed<'a> {
+    fn from(b: &'a Bits) -> Self {
+        RunSeed::Memory(b)
+    }
+}
+
+impl RunSeed<'_> {
+    /// Length in bits.
+    pub fn bits(&self) -> u64 {
+        match self {
+            RunSeed::Memory(b) => b.len() as u64,
+            RunSeed::Packed { bits, .. } => *bits,
+        }
+    }
+
+    /// Bytes the seed holds in memory while the run lasts.
+    pub fn held_bytes(&self) -> u64 {
+        match self {
+            RunSeed::Memory(b) => 8 * b.len().div_ceil(64) as u64,
+            RunSeed::Packed { .. } => 0,
+        }
+    }
+
+    /// The bits in memory (read from the file when streamed).
+    fn load(&self) -> Result<std::borrow::Cow<'_, Bits>, Error> {
+        Ok(match self {
+            RunSeed::Memory(b) => std::borrow::Cow::Borrowed(*b),
+            RunSeed::Packed { path, bits } => {
+                let n = usize::try_from(*bits).map_err(|_| {
+                    BitsError::from(io::Error::other("the seed is too long for this platform"))
+                        .in_file(path)
+                })?;
+                crate::files::space::check_bits(n as u128, "the seed")?;
+                std::borrow::Cow::Owned(crate::bits::io::read_bits(
+                    path,
+                    Format::Packed,
+                    BitOrder::Msb,
+                    Some(n),
+                )?)
+            }
+        })
+    }
+}
+
+/// The seed a job resolved: read into memory, or a packed seed file left
+/// on disk for a whole-run block to stream ([`RunSeed`]).
+#[derive(Clone, Debug)]
+pub enum SeedInput {
+    /// Read whole.
+    Memory(Bits),
+    /// Streamed: the first `bits` bits of the packed file at `path`.
+    Packed {
+        /// The seed file.
+        path: PathBuf,
+        /// Bits used.
+        bits: u64,
+    },
+}
+
+impl SeedInput {
+    /// As a run's seed.
+    pub fn as_run(&self) -> RunSeed<'_> {
+        match self {
+            SeedInput::Memory(b) => RunSeed::Memory(b),
+            SeedInput::Packed { path, bits } => RunSeed::Packed { path, bits: *bits },
+        }
+    }
+
+    /// The seed's data digest (`spec/conventions.md`), as receipts record
+    /// it: from the bits in memory, or for a streamed seed the one the run
+    /// computed while reading it ([`Report::seed_digest`]); the same value
+    /// either way.
+    ///
+    /// # Panics
+    /// If a streamed seed's report has no digest (the run did not stream
+    /// it).
+    pub fn data_digest(&self, report: &Report) -> String {
+        match self {
+            SeedInput::Memory(b) => crate::bits::digest::data_digest(b),
+            SeedInput::Packed { .. } => report
+                .seed_digest
+                .clone()
+                .expect("a streamed seed is digested by its run"),
+        }
+    }
+}
+
 /// An extraction with the seed given explicitly (nothing is recorded).
 pub struct Run<'a> {
     /// The raw input.
@@ -145,7 +248,7 @@ pub struct Run<'a> {
     /// The planned extractor; its input length is the block size.
     pub extractor: &'a dyn Extractor,
     /// The seed (exactly the extractor's seed length).
-    pub seed: &'a Bits,
+    pub seed: RunSeed<'a>,
     /// Where the output goes.
     pub output: BitFile,
 }
@@ -169,6 +272,12 @@ pub struct Report {
     /// Private: never printed.
     #[serde(skip)]
     pub input_digest: Option<String>,
+    /// The data digest of a seed streamed from its file (a whole-run block
+    /// with [`RunSeed::Packed`]), computed from the words the run read in
+    /// order and one sequential read of the rest; `None` for a seed in
+    /// memory. Private: never printed.
+    #[serde(skip)]
+    pub seed_digest: Option<String>,
 }
 
 /// Errors of a run.
@@ -232,6 +341,23 @@ const BATCH_BYTES: usize = 256 << 20;
 /// from a packed file goes through [`crate::extract::whole_run`] (input read
 /// piece by piece, output written chunk by chunk, memory bounded).
 pub const WHOLE_RUN_MIN_BITS: usize = 1 << 24;
+
+/// Bytes of the buffers between the files and a whole-run block, held
+/// beside its layout: the byte buffers of the input and seed file sources
+/// ([`crate::bits::io::SOURCE_PIECE_BYTES`] each), the digests' byte
+/// buffers and the words read again at the end (`FEED_WORDS` words each),
+/// the output file's write buffer (1 MiB) or the claimed output's reader
+/// (verify), with room to spare.
+pub const WHOLE_RUN_BUFFER_BYTES: u64 = 4 << 20;
+
+/// What a whole-run block of a run holds beside its layout: `seed` bytes
+/// of seed in memory, and the file buffers.
+fn beside(seed: u64) -> Beside {
+    Beside {
+        seed_bytes: seed,
+        buffer_bytes: WHOLE_RUN_BUFFER_BYTES,
+    }
+}
 
 static MEMORY_LIMIT: AtomicU64 = AtomicU64::new(0);
 
@@ -488,7 +614,8 @@ impl Run<'_> {
                 BitOrder::Msb,
             )
         });
-        let bound = self.extractor.with_seed(self.seed);
+        let seed = self.seed.load()?;
+        let bound = self.extractor.with_seed(&seed);
 
         let threads = rayon::current_num_threads().max(1);
         let per_block = (n + m).div_ceil(8).max(1);
@@ -577,42 +704,18 @@ impl Run<'_> {
     /// extractor of at least [`WHOLE_RUN_MIN_BITS`] input bits, a packed
     /// regular file holding one block (and less than a second).
     fn whole_run_input(&self) -> Option<(Family, &Path, BitOrder, u64)> {
-        let n = self.extractor.input_bits();
-        let family = match self.extractor.name() {
-            "toeplitz" => Family::Toeplitz,
-            "modified-toeplitz" => Family::ModifiedToeplitz,
-            _ => return None,
-        };
-        let Source::File(f) = &self.input else {
-            return None;
-        };
-        if n < WHOLE_RUN_MIN_BITS || f.is_std() || f.format != Format::Packed {
-            return None;
-        }
-        let held = crate::bits::io::max_bits_in(&f.path, f.format)?;
-        let total = self.input_bits.unwrap_or(held);
-        (total >= n as u64 && total / (n as u64) == 1 && total <= held).then_some((
-            family,
-            f.path.as_path(),
-            f.order,
-            total,
-        ))
+        whole_run_input_of(self.extractor, &self.input, self.input_bits)
     }
 
     /// The whole-run plan of this run, when its one block goes that way
-    /// (see [`WHOLE_RUN_MIN_BITS`]); planned again by the run itself.
+    /// (see [`WHOLE_RUN_MIN_BITS`]); planned again by the run itself. A
+    /// seed in memory counts against [`memory_limit`].
     pub fn whole_run_plan(&self) -> Option<Result<WholeRun, Error>> {
-        let (family, ..) = self.whole_run_input()?;
-        let engine = self.extractor.engine().unwrap_or(Engine::Auto);
-        Some(
-            WholeRun::new(
-                family,
-                self.extractor.input_bits() as u64,
-                self.extractor.output_bits() as u64,
-                engine,
-                memory_limit(),
-            )
-            .map_err(Error::from),
+        whole_run_plan_of(
+            self.extractor,
+            &self.input,
+            self.input_bits,
+            self.seed.held_bytes(),
         )
     }
 
@@ -634,18 +737,40 @@ impl Run<'_> {
             self.extractor.output_bits() as u64,
         );
         let engine = self.extractor.engine().unwrap_or(Engine::Auto);
-        let plan = WholeRun::new(family, n, m, engine, memory_limit())?;
+        let plan = WholeRun::new_holding(
+            family,
+            n,
+            m,
+            engine,
+            memory_limit(),
+            beside(self.seed.held_bytes()),
+        )?;
         let mut file = PackedFileSource::open(path, n, order).map_err(Error::Input)?;
         // The input's data digest (of all `total` bits) from the words the
         // run reads, as far as its first pass reads them in order.
         let mut input = DigestingSource::new(&mut file, total);
-        let mut seed = WordsSource::new(self.seed.words(), self.seed.len() as u64);
+        // The seed: from memory, or streamed from its file. A streamed
+        // seed's data digest comes from the words the run reads in order
+        // (the in-memory layout reads it whole from its start) and, for
+        // what no read covered in order (tiles read the seed's segments
+        // from its end backwards), one extra sequential read of the file
+        // at the end ([`DigestingSource::finish`]).
+        let (mut seed_mem, mut seed_file, mut seed_dig) = (None, None, None);
+        let seed: &mut dyn crate::bits::source::BitSource = match self.seed {
+            RunSeed::Memory(b) => seed_mem.insert(WordsSource::new(b.words(), b.len() as u64)),
+            RunSeed::Packed { path, bits } => {
+                let f = seed_file.insert(
+                    PackedFileSource::open(path, bits, BitOrder::Msb).map_err(Error::Input)?,
+                );
+                seed_dig.insert(DigestingSource::new(f, bits))
+            }
+        };
         let work = plan.work_bits().max(1);
         let mut done = 0u64;
         let mut failed: Option<Error> = None;
         let r = plan.run(
             &mut input,
-            &mut seed,
+            seed,
             &mut |chunk| match consume(chunk) {
                 Ok(()) => Ok(()),
                 Err(e) => {
@@ -668,6 +793,12 @@ impl Run<'_> {
             e => Error::from(e),
         })?;
         let digest = input.finish(path, order).map_err(Error::Input)?;
+        let seed_digest = match (seed_dig, self.seed) {
+            (Some(d), RunSeed::Packed { path, .. }) => {
+                Some(d.finish(path, BitOrder::Msb).map_err(Error::Input)?)
+            }
+            _ => None,
+        };
         progress(n);
         Ok(Report {
             blocks: 1,
@@ -676,8 +807,63 @@ impl Run<'_> {
             trailing_bits_unused: total - n,
             output_bits: m,
             input_digest: Some(digest),
+            seed_digest,
         })
     }
+}
+
+/// The input of a whole-run block (see [`WHOLE_RUN_MIN_BITS`]): a Toeplitz
+/// or modified Toeplitz extractor of at least that many input bits, a
+/// packed regular file holding one block (and less than a second); the
+/// family, the file, its bit order and the input bits asked for.
+pub(crate) fn whole_run_input_of<'s>(
+    extractor: &dyn Extractor,
+    input: &'s Source,
+    input_bits: Option<u64>,
+) -> Option<(Family, &'s Path, BitOrder, u64)> {
+    let n = extractor.input_bits();
+    let family = match extractor.name() {
+        "toeplitz" => Family::Toeplitz,
+        "modified-toeplitz" => Family::ModifiedToeplitz,
+        _ => return None,
+    };
+    let Source::File(f) = input else {
+        return None;
+    };
+    if n < WHOLE_RUN_MIN_BITS || f.is_std() || f.format != Format::Packed {
+        return None;
+    }
+    let held = crate::bits::io::max_bits_in(&f.path, f.format)?;
+    let total = input_bits.unwrap_or(held);
+    (total >= n as u64 && total / (n as u64) == 1 && total <= held).then_some((
+        family,
+        f.path.as_path(),
+        f.order,
+        total,
+    ))
+}
+
+/// The whole-run plan of a run, when its one block goes that way, within
+/// [`memory_limit`] with `held` bytes of seed in memory beside it.
+pub(crate) fn whole_run_plan_of(
+    extractor: &dyn Extractor,
+    input: &Source,
+    input_bits: Option<u64>,
+    held: u64,
+) -> Option<Result<WholeRun, Error>> {
+    let (family, ..) = whole_run_input_of(extractor, input, input_bits)?;
+    let engine = extractor.engine().unwrap_or(Engine::Auto);
+    Some(
+        WholeRun::new_holding(
+            family,
+            extractor.input_bits() as u64,
+            extractor.output_bits() as u64,
+            engine,
+            memory_limit(),
+            beside(held),
+        )
+        .map_err(Error::from),
+    )
 }
 
 /// A bit source that feeds the data digest (`spec/conventions.md`) of a
@@ -687,6 +873,9 @@ impl Run<'_> {
 /// Toeplitz whole run does). What no read covered in order (the tail of a
 /// modified Toeplitz block, read before its head; the bits after the block)
 /// is read again by [`finish`](Self::finish).
+/// Words a [`DigestingSource`] turns into bytes at once.
+const FEED_WORDS: usize = 1 << 15;
+
 struct DigestingSource<'a> {
     inner: &'a mut dyn crate::bits::source::BitSource,
     digest: crate::bits::digest::DataDigest,
@@ -708,12 +897,21 @@ impl<'a> DigestingSource<'a> {
     /// Feeds words (bit `i` of word `w` is string bit `64 w + i`) as packed
     /// MSB-first bytes, at most `limit` bytes.
     fn feed(&mut self, words: &[u64], limit: u64) {
-        let mut bytes = Vec::with_capacity(words.len() * 8);
-        for w in words {
-            bytes.extend_from_slice(&w.to_le_bytes().map(u8::reverse_bits));
+        // In pieces, so the byte buffer stays small whatever the read.
+        let mut left = limit;
+        let mut bytes = Vec::with_capacity(FEED_WORDS.min(words.len()) * 8);
+        for piece in words.chunks(FEED_WORDS) {
+            if left == 0 {
+                break;
+            }
+            bytes.clear();
+            for w in piece {
+                bytes.extend_from_slice(&w.to_le_bytes().map(u8::reverse_bits));
+            }
+            bytes.truncate(left.min(bytes.len() as u64) as usize);
+            left -= bytes.len() as u64;
+            self.digest.update(&bytes);
         }
-        bytes.truncate(limit.min(bytes.len() as u64) as usize);
-        self.digest.update(&bytes);
     }
 
     /// Digests what the reads did not cover, from the file at `path`, and
@@ -723,7 +921,7 @@ impl<'a> DigestingSource<'a> {
         let words = self.total.div_ceil(64);
         if self.next < words {
             let mut file = PackedFileSource::open(path, self.total, order)?;
-            let mut buf = vec![0u64; 1 << 17];
+            let mut buf = vec![0u64; FEED_WORDS];
             while self.next < words {
                 let k = (words - self.next).min(buf.len() as u64) as usize;
                 file.read_words(self.next, &mut buf[..k])
@@ -832,6 +1030,40 @@ impl Sink {
             Sink::Stdout(w) => w.finish()?.flush(),
         }
     }
+}
+
+/// A packed seed file to be streamed by a whole-run block: `needed` bits,
+/// checked from the file's size with the very refusals of [`read_seed`] (a
+/// shorter file; unless `allow_longer`, one that holds more than `needed`
+/// bits rounded up to whole bytes), and left on disk. `None` when `path`
+/// is not a regular file (standard input, a pipe): read it whole.
+pub fn stream_seed(
+    path: &Path,
+    needed: usize,
+    allow_longer: bool,
+) -> Result<Option<SeedInput>, SeedFileError> {
+    let Some(have) = crate::bits::io::max_bits_in(path, Format::Packed) else {
+        return Ok(None);
+    };
+    let have = usize::try_from(have).unwrap_or(usize::MAX);
+    if have < needed {
+        return Err(SeedFileError::Short {
+            path: path.to_path_buf(),
+            have,
+            needed,
+        });
+    }
+    if !allow_longer && have > needed.div_ceil(8) * 8 {
+        return Err(SeedFileError::Long {
+            path: path.to_path_buf(),
+            have,
+            needed,
+        });
+    }
+    Ok(Some(SeedInput::Packed {
+        path: path.to_path_buf(),
+        bits: needed as u64,
+    }))
 }
 
 /// Reads a seed file: `needed` bits, refusing a shorter file and (unless

@@ -161,7 +161,7 @@ impl Resolved {
             },
             input_bits: Some(self.x.len() as u64),
             extractor: &self.plan,
-            seed: &self.y,
+            seed: (&self.y).into(),
             output,
         }
     }
