@@ -341,3 +341,255 @@ pub fn labels(setup: Setup, mode: Mode, from_counts: bool, warnings: &[String]) 
     }
     labels
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The spec 3.7 worked example (`spec/certification.md`): N = 1e8,
+    /// gamma = 0.1, w_exp = 0.84, delta = 0.002, eps_s = eps_EA = 1e-6,
+    /// first-2016 bound; planning figure 52 402 723 bits with W published,
+    /// charged ceil(log2(N + 1)) = 27 bits there.
+    fn worked_example(keep: &str) -> Declared {
+        Declared {
+            rounds: Some(100_000_000),
+            gamma: Some(0.1),
+            w_exp: Some(0.84),
+            delta: Some(0.002),
+            eps_s: Some(1e-6),
+            eps_ea: Some(1e-6),
+            bound: Some(BOUND_FIRST.into()),
+            keep: Some(keep.into()),
+            ..Declared::default()
+        }
+    }
+
+    fn run(d: &Declared, mode: Mode) -> RunParams {
+        resolve_run(d, mode).unwrap()
+    }
+
+    #[test]
+    fn first_bound_accepts_and_charges_what_is_published() {
+        let p = run(&worked_example("pairs"), Mode::EntropyAccumulation);
+        assert_eq!(p.level, 1e-6);
+        // N_test = gamma N exactly, W = w_exp N_test: above the threshold
+        // gamma N (w_exp - delta) = 8 380 000.
+        let s = Summary::from_counts(100_000_000, 10_000_000, 8_400_000);
+        let c = certify_run(&p, &s, &[PublicStat::Wins]).unwrap();
+        assert!(c.accepted);
+        // W takes N_test + 1 values: ceil(log2(1e7 + 1)) = 24 bits, 3 fewer
+        // than the plan charges, so the figure is the spec's plus 3 (the
+        // bound B does not depend on W in the tolerance form).
+        assert_eq!(c.disclosure_charge_bits, 24);
+        assert_eq!(c.min_entropy_bits, 52_402_723 + 3);
+        assert_eq!(c.terms.zero_reason, None);
+        assert_eq!(
+            (c.eps_s, c.eps_cert, c.eps_cert_source),
+            (1e-6, 1e-6, "eps_EA")
+        );
+        // Completeness exp(-2 N gamma^2 delta^2) = exp(-8) (spec 3.5) plus
+        // the record checks' level 1e-6, by hand: 3.364626279e-4.
+        let ce = c.terms.completeness_error.unwrap();
+        assert!((ce - 3.364_626_279_025_119e-4).abs() < 1e-15, "{ce}");
+        let b = c.bound.unwrap();
+        assert_eq!(b.name, BOUND_FIRST);
+        assert_eq!(b.keep_charge_bits, 0);
+        assert!(b.tangent_point > 0.75 && b.ceiling_k.is_some());
+        assert_eq!(c.checks.level, 1e-6);
+        assert!(!c.checks.inputs_checked);
+        let [lo, hi] = c.checks.test_rounds_range;
+        assert!(lo < 10_000_000 && 10_000_000 < hi);
+
+        // Nothing published: 24 bits more.
+        let none = certify_run(&p, &s, &[]).unwrap();
+        assert_eq!(none.min_entropy_bits, 52_402_723 + 27);
+    }
+
+    #[test]
+    fn keeping_alices_bits_costs_n_test() {
+        let p = run(&worked_example("alice"), Mode::EntropyAccumulation);
+        assert_eq!(p.keep, Keep::Alice);
+        let s = Summary::from_counts(100_000_000, 10_000_000, 8_400_000);
+        let c = certify_run(&p, &s, &[PublicStat::Wins]).unwrap();
+        assert_eq!(c.min_entropy_bits, 52_402_726 - 10_000_000);
+        assert_eq!(c.bound.unwrap().keep_charge_bits, 10_000_000);
+    }
+
+    #[test]
+    fn a_failed_test_aborts_with_zero_bits() {
+        let p = run(&worked_example("pairs"), Mode::EntropyAccumulation);
+        // One win below the threshold 8 380 000.
+        let s = Summary::from_counts(100_000_000, 10_000_000, 8_379_999);
+        let c = certify_run(&p, &s, &[PublicStat::Wins]).unwrap();
+        assert!(!c.accepted);
+        assert_eq!(c.min_entropy_bits, 0);
+        assert_eq!(
+            c.terms.zero_reason.as_deref(),
+            Some(ZeroReason::Aborted.text())
+        );
+        // The certificate of an aborted run still records the bound.
+        assert!(c.bound.is_some());
+
+        // The improved bound aborts the same way, and with a threshold at
+        // most 3/4 certifies nothing even when the test passes.
+        let mut d = worked_example("pairs");
+        d.bound = None;
+        d.test = Some("wins".into());
+        let c = certify_run(&run(&d, Mode::EntropyAccumulation), &s, &[]).unwrap();
+        assert!(!c.accepted && c.min_entropy_bits == 0);
+        assert_eq!(c.bound.as_ref().unwrap().name, BOUND_IMPROVED);
+        d.w_exp = Some(0.751);
+        let s = Summary::from_counts(100_000_000, 10_000_000, 8_400_000);
+        let c = certify_run(&run(&d, Mode::EntropyAccumulation), &s, &[]).unwrap();
+        assert!(c.accepted);
+        assert_eq!(c.min_entropy_bits, 0);
+        assert_eq!(
+            c.terms.zero_reason.as_deref(),
+            Some(ZeroReason::ThresholdNotAboveClassical.text())
+        );
+    }
+
+    #[test]
+    fn improved_bound_passing_run_certifies_less_than_n() {
+        let mut d = worked_example("pairs");
+        d.bound = None;
+        d.test = Some("wins".into());
+        let p = run(&d, Mode::EntropyAccumulation);
+        let s = Summary::from_counts(100_000_000, 10_000_000, 8_400_000);
+        let c = certify_run(&p, &s, &[PublicStat::Wins]).unwrap();
+        assert!(c.accepted);
+        // Positive, and below N r(w_acc) <= N (one bit per round at most
+        // from the pair string, spec 2).
+        assert!(c.min_entropy_bits > 0 && c.min_entropy_bits < 100_000_000);
+        let t = c.bound.unwrap().terms.unwrap();
+        assert_eq!(
+            c.min_entropy_bits,
+            (t.bound_bits - 1.0 - 24.0).floor() as u64
+        );
+    }
+
+    #[test]
+    fn records_the_protocol_could_not_produce_are_refused() {
+        let p = run(&worked_example("pairs"), Mode::EntropyAccumulation);
+        // Half the rounds flagged as tests with gamma = 0.1.
+        let s = Summary::from_counts(100_000_000, 50_000_000, 40_000_000);
+        let e = certify_run(&p, &s, &[]).unwrap_err();
+        assert!(matches!(e.kind(), ErrorKind::Refused { .. }), "{e}");
+        // A win fraction far above cos^2(pi/8).
+        let s = Summary::from_counts(100_000_000, 10_000_000, 9_000_000);
+        let e = certify_run(&p, &s, &[]).unwrap_err();
+        assert!(matches!(e.kind(), ErrorKind::AboveQuantum { .. }), "{e}");
+    }
+
+    #[test]
+    fn iid_estimate_follows_spec_4() {
+        let d = Declared {
+            rounds: Some(1_000_000),
+            gamma: Some(0.1),
+            eps_est: Some(1e-6),
+            ..Declared::default()
+        };
+        let p = run(&d, Mode::IidEstimate);
+        assert_eq!(p.mode(), Mode::IidEstimate);
+        assert!(p.protocol().is_none());
+        let s = Summary::from_counts(1_000_000, 100_000, 85_000);
+        let c = certify_run(&p, &s, &[PublicStat::Wins]).unwrap();
+        // Computed by hand (python3, f64) from spec 4:
+        // w_L = 0.85 - sqrt(ln(1e6) / 2e5) = 0.841688709,
+        // S_L = 8 w_L - 4, H = N [1 - log2(1 + sqrt(2 - S_L^2/4))]
+        // = 552905.197, less ceil(log2(1e5 + 1)) = 17: floor 552888.
+        assert!(c.accepted);
+        assert_eq!(c.disclosure_charge_bits, 17);
+        assert_eq!(c.min_entropy_bits, 552_888);
+        assert!((c.terms.bound_bits - 552_905.197_330_302_6).abs() < 1e-6);
+        assert!((c.terms.win_lower_bound.unwrap() - 0.841_688_709_318_654_5).abs() < 1e-12);
+        assert_eq!(
+            (c.eps_s, c.eps_cert, c.eps_cert_source),
+            (0.0, 1e-6, "eps_est")
+        );
+        assert!(c.bound.is_none());
+        // At the classical maximum nothing is certified.
+        let s = Summary::from_counts(1_000_000, 100_000, 75_000);
+        let c = certify_run(&p, &s, &[]).unwrap();
+        assert_eq!(c.min_entropy_bits, 0);
+        assert!(c.terms.zero_reason.unwrap().contains("does not exceed 3/4"));
+    }
+
+    #[test]
+    fn parameters_are_checked_before_the_record() {
+        let mut d = worked_example("pairs");
+        d.gamma = Some(0.0);
+        let e = resolve_run(&d, Mode::EntropyAccumulation).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "--test-probability 0: gamma must satisfy 0 < gamma <= 1"
+        );
+        let mut d = worked_example("pairs");
+        d.rounds = Some(0);
+        let e = resolve_run(&d, Mode::EntropyAccumulation).unwrap_err();
+        assert_eq!(e.to_string(), "--rounds 0: N_rounds must be at least 1");
+        let mut d = worked_example("pairs");
+        d.rounds = None;
+        let e = resolve_run(&d, Mode::EntropyAccumulation).unwrap_err();
+        assert!(e.to_string().starts_with("--rounds is missing"), "{e}");
+        // The improved bound needs the test fixed.
+        let mut d = worked_example("pairs");
+        d.bound = None;
+        d.delta = None;
+        d.eps_c = Some(1e-3);
+        let e = resolve_run(&d, Mode::EntropyAccumulation).unwrap_err();
+        assert!(e.to_string().starts_with("--test is missing"), "{e}");
+        // i.i.d.: eps_est required, inside (0, 1), pairs only.
+        let mut d = Declared {
+            rounds: Some(1000),
+            gamma: Some(0.5),
+            ..Declared::default()
+        };
+        let e = resolve_run(&d, Mode::IidEstimate).unwrap_err();
+        assert!(
+            e.to_string().starts_with("--estimation-error is missing"),
+            "{e}"
+        );
+        d.eps_est = Some(1.0);
+        let e = resolve_run(&d, Mode::IidEstimate).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "--estimation-error 1: must lie strictly between 0 and 1"
+        );
+        d.eps_est = Some(1e-3);
+        d.keep = Some("alice".into());
+        let e = resolve_run(&d, Mode::IidEstimate).unwrap_err();
+        assert!(e.to_string().starts_with("--keep alice applies"), "{e}");
+        d.keep = None;
+        let p = resolve_run(&d, Mode::IidEstimate).unwrap();
+        assert_eq!((p.keep, p.level), (Keep::Pairs, 1e-3));
+    }
+
+    #[test]
+    fn public_values_and_labels() {
+        let mut s = Summary::from_counts(100, 40, 30);
+        s.pair_counts = [[10, 11], [9, 10]];
+        s.same_counts = [[8, 9], [7, 2]];
+        s.s_hat = Some(2.5);
+        s.input_warnings = vec!["odd".into()];
+        let v = public_values(&[PublicStat::PairCount(1, 0), PublicStat::Wins], &s);
+        assert_eq!(v.wins, Some(30));
+        assert_eq!(v.s_hat, None);
+        assert_eq!(v.pair_counts, vec![[1, 0, 9, 7]]);
+        assert_eq!(public_values(&[PublicStat::SHat], &s).s_hat, Some(2.5));
+        assert_eq!(public_values(&[], &s), PublicValues::default());
+
+        let l = labels(Setup::Shielded, Mode::IidEstimate, true, &s.input_warnings);
+        assert_eq!(
+            l,
+            vec![
+                Setup::Shielded.label().to_string(),
+                IID_LABEL.to_string(),
+                COUNTS_LABEL.to_string(),
+                "warning: odd".to_string()
+            ]
+        );
+        let l = labels(Setup::Separated, Mode::EntropyAccumulation, false, &[]);
+        assert_eq!(l, vec![Setup::Separated.label().to_string()]);
+    }
+}

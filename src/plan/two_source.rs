@@ -550,4 +550,197 @@ mod tests {
         assert_eq!(truncate_entropy(838860.8, 3), 838857.8);
         assert_eq!(truncate_entropy(2.0, 3), 0.0);
     }
+
+    fn exact_input(raw: u64, r1: f64, r2: f64, eps: f64) -> PlanInput {
+        PlanInput {
+            raw_bits: Some(raw),
+            k1_rate: Some(r1),
+            k2_rate: Some(r2),
+            smoothing_x: Some(0.0),
+            smoothing_y: Some(0.0),
+            cert_error: Some(0.0),
+            target_error: Some(eps),
+            ..PlanInput::default()
+        }
+    }
+
+    // spec/hashing-and-composition.md 6.5, Table 6 [computed there,
+    // params.py]: n = 1019, k1 = k2 = 0.9 n, eps = 1e-6, no other term.
+    #[test]
+    fn plan_reproduces_table_6() {
+        let mut i = exact_input(1019, 0.9, 0.9, 1e-6);
+        let p = plan(&i).unwrap();
+        assert_eq!((p.n, p.dropped_bits), (1019, 0));
+        assert_eq!(p.k1, 0.9 * 1019.0);
+        assert_eq!(p.classical.label, CLASSICAL_LABEL);
+        assert_eq!(p.classical.output_bits, Some(776));
+        assert_eq!(up4(p.classical.eps_extractor.unwrap()), "8.899e-7");
+        assert_eq!(
+            p.classical.eps_total_rounded_up.as_deref(),
+            Some("8.899e-7")
+        );
+        assert!(p.markov_unverified.is_none());
+        assert_eq!(p.assumed_conditions.len(), 2);
+        i.markov_unverified = true;
+        let q = plan(&i).unwrap().markov_unverified.unwrap();
+        assert_eq!(q.label, MARKOV_LABEL);
+        assert_eq!(q.output_bits, Some(131));
+        assert_eq!(q.eps_total_rounded_up.as_deref(), Some("7.444e-7"));
+    }
+
+    // Raw strings longer than n (6.1, 1.5): 1024 bits keep n = 1019 and
+    // each figure loses 5 bits; the error terms add up (6.3). Expected
+    // values by hand from the doc comment of `plan`.
+    #[test]
+    fn plan_truncates_and_adds_the_terms() {
+        let i = PlanInput {
+            raw_bits: Some(1024),
+            k1: Some(922.0),
+            k2: Some(900.0),
+            k2_rate: Some(0.1), // a figure in bits wins over a rate
+            smoothing_x: Some(1e-8),
+            smoothing_y: Some(2e-8),
+            cert_error: Some(1e-7),
+            target_error: Some(1e-6),
+            ..PlanInput::default()
+        };
+        let p = plan(&i).unwrap();
+        assert_eq!((p.raw_bits, p.n, p.dropped_bits), (1024, 1019, 5));
+        assert_eq!((p.k1, p.k2), (917.0, 895.0));
+        assert!((p.smoothing_charge - 6e-8).abs() < 1e-22);
+        assert!((p.eps_extractor_budget - 8.4e-7).abs() < 1e-20);
+        let m = p.classical.output_bits.unwrap();
+        // floor(917 + 895 - 1019 + 1 - 2 log2(1/8.4e-7)) = 753, and its
+        // error 2^(-(917 + 895 - 1019 - 753 + 1)/2) = 2^-20.5 fits.
+        assert_eq!(m, 753);
+        let e = p.classical.eps_extractor.unwrap();
+        assert_eq!(e, (-20.5f64).exp2());
+        assert_eq!(p.classical.eps_total, Some(1e-7 + 6e-8 + e));
+    }
+
+    #[test]
+    fn plan_refusals_name_the_input() {
+        let ok = exact_input(1019, 0.9, 0.9, 1e-6);
+        let field = |i: PlanInput| plan(&i).unwrap_err();
+        let e = field(PlanInput {
+            raw_bits: None,
+            target_error: None,
+            ..ok
+        });
+        assert_eq!(e.field(), "raw_bits", "the raw length is checked first");
+        assert!(matches!(e.kind(), ErrorKind::Missing { .. }));
+        assert_eq!(
+            field(PlanInput {
+                target_error: None,
+                ..ok
+            })
+            .field(),
+            "eps"
+        );
+        let e = field(PlanInput {
+            k2_rate: None,
+            ..ok
+        });
+        assert_eq!(e.to_string(), "k2: not given: k2, k2_rate");
+        let e = field(PlanInput {
+            k1_rate: Some(1.5),
+            ..ok
+        });
+        assert_eq!(e.field(), "k1_rate");
+        let e = field(PlanInput {
+            k2: Some(1020.0),
+            ..ok
+        });
+        assert_eq!(
+            e.kind(),
+            &ErrorKind::EntropyOutOfRange { k: 1020.0, n: 1019 }
+        );
+        assert_eq!(
+            field(PlanInput {
+                k1: Some(f64::NAN),
+                ..ok
+            })
+            .field(),
+            "k1"
+        );
+        let e = field(PlanInput {
+            raw_bits: Some(2),
+            k1: Some(1.0),
+            k2: Some(1.0),
+            ..ok
+        });
+        assert!(
+            matches!(e.kind(), ErrorKind::InvalidLength { n: 2, .. }),
+            "{e}"
+        );
+        let e = field(PlanInput {
+            smoothing_y: None,
+            cert_error: None,
+            ..ok
+        });
+        assert_eq!(
+            e.kind(),
+            &ErrorKind::Missing {
+                inputs: vec!["eps_s_y", "eps_cert"]
+            }
+        );
+        assert_eq!(
+            field(PlanInput {
+                smoothing_x: Some(1.0),
+                ..ok
+            })
+            .field(),
+            "eps_s_x"
+        );
+        let e = field(PlanInput {
+            cert_error: Some(1e-6),
+            ..ok
+        });
+        assert!(
+            matches!(e.kind(), ErrorKind::NoExtractorBudget { .. }),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn plan_markov_smoothing_needs_the_assumption() {
+        let i = PlanInput {
+            smoothing_x: Some(1e-9),
+            markov_unverified: true,
+            ..exact_input(1019, 0.9, 0.9, 1e-6)
+        };
+        let e = plan(&i).unwrap_err();
+        assert_eq!(e.field(), "eps_s");
+        assert!(matches!(e.kind(), ErrorKind::NotAsserted { .. }));
+        let p = plan(&PlanInput {
+            accept_markov_smoothing: true,
+            ..i
+        })
+        .unwrap();
+        assert!(p.markov_unverified.unwrap().output_bits.is_some());
+        assert_eq!(p.assumed_conditions.len(), 4);
+        // Without Markov mode the same smoothing is simply charged.
+        let p = plan(&PlanInput {
+            markov_unverified: false,
+            ..i
+        })
+        .unwrap();
+        assert_eq!(p.smoothing_charge, 2e-9);
+    }
+
+    #[test]
+    fn plan_without_output_carries_the_refusal() {
+        // Table 6 row 4: k1 = k2 = 0.5 n gives nothing in either mode.
+        let mut i = exact_input(1019, 0.5, 0.5, 1e-6);
+        i.markov_unverified = true;
+        let p = plan(&i).unwrap();
+        let r = p.classical.refused.as_ref().unwrap();
+        assert_eq!(r.field(), "k1");
+        assert!(matches!(r.kind(), ErrorKind::NoOutput { .. }));
+        assert_eq!(p.classical.output_bits, None);
+        assert!(p.markov_unverified.unwrap().refused.is_some());
+        // The refusal serializes as its message.
+        let j = serde_json::to_value(&p.classical).unwrap();
+        assert_eq!(j["refused"], serde_json::Value::String(r.to_string()));
+    }
 }
