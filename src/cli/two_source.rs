@@ -201,7 +201,7 @@ impl<'a> PlanMode<'a> {
             eps_extractor: p.eps_extractor,
             eps_total: p.eps_total,
             eps_total_rounded_up: p.eps_total_rounded_up.as_deref(),
-            refused: p.refused.as_ref().map(|e| plan_message(e)),
+            refused: p.refused.as_ref().map(plan_message),
         }
     }
 }
