@@ -15,6 +15,8 @@
 //!   counts file and a raw output file from caller-opened streams.
 //! - [`planning`]: the protocol resolved from the declared parameters,
 //!   and the planning figures of `certify --plan`.
+//! - [`run`]: the certification of one run: parameters resolved before
+//!   the record is read, then the decision, the figure and its records.
 //! - [`certificate`]: the certificate document the extractor consumes
 //!   (spec 3.8, 3.9; `spec/hashing-and-composition.md` 5).
 //! - [`simulate`]: a simulated CHSH device for demos and tests only.
@@ -39,6 +41,7 @@ pub mod input;
 pub mod params;
 pub mod planning;
 pub mod record;
+pub mod run;
 pub mod simulate;
 pub mod tail;
 pub mod tradeoff;

@@ -7,22 +7,21 @@
 use super::common::{print_json, progress};
 use anyhow::{anyhow, bail, Context, Result};
 use serde::Serialize;
-use sluice::certify::certificate::{
-    BoundRecord, ChecksRecord, ALICE_LAYOUT, BOUND_FIRST, BOUND_IMPROVED, COUNTS_LABEL,
-};
+use sluice::certify::certificate::{BoundRecord, ALICE_LAYOUT, BOUND_FIRST, BOUND_IMPROVED};
 use sluice::certify::certificate::{
     Certificate, CertifiedString, Parameters, PublicValues, RecordInfo, ResultTerms, PAIR_LAYOUT,
     SCHEMA,
 };
-use sluice::certify::eat::{eat_certify, EatParams, EatResult, ZeroReason, MARGIN_BITS};
-use sluice::certify::iid::{iid_estimate, IID_LABEL};
-use sluice::certify::improved::{figure, improved_optimise, Keep, TestKind};
+use sluice::certify::eat::{EatParams, EatResult};
+use sluice::certify::iid::IID_LABEL;
+use sluice::certify::improved::{Keep, TestKind};
 use sluice::certify::input;
 use sluice::certify::params::{self, Declared, KeyValue, COUNT_KEYS, PARAM_KEYS};
 use sluice::certify::planning::{
-    need, plan_first, plan_improved, plan_rate, protocol, Bound, PlanRow, Protocol,
+    plan_first, plan_improved, plan_rate, protocol, Bound, PlanRow, Protocol,
 };
 use sluice::certify::record::Summary;
+use sluice::certify::run::{certify_run, labels, public_values, resolve_run};
 use sluice::certify::{cautions, Mode, PublicStat, Setup};
 use std::fs::File;
 use std::io::{BufReader, Read, Write};
@@ -713,34 +712,10 @@ pub fn certify_record(args: &CertifyArgs, show: bool) -> Result<(ExitCode, serde
     let mode = args.mode();
     let public = args.public()?;
     let r = args.resolve()?;
-    let n = need(r.rounds, "rounds")?;
-    let gamma = need(r.gamma, "test-probability")?;
-    if !(gamma > 0.0 && gamma <= 1.0) {
-        bail!("--test-probability {gamma}: gamma must satisfy 0 < gamma <= 1");
-    }
-    if n == 0 {
-        bail!("--rounds 0: N_rounds must be at least 1");
-    }
     // Validate the parameters before reading a large record.
-    let prot = match mode {
-        Mode::EntropyAccumulation => Some(protocol(&r, false)?.expect("certify fixes the test")),
-        Mode::IidEstimate => {
-            let e = need(r.eps_est, "estimation-error")?;
-            if !(e > 0.0 && e < 1.0) {
-                bail!("--estimation-error {e}: must lie strictly between 0 and 1");
-            }
-            if r.keep.as_deref() == Some("alice") {
-                bail!("--keep alice applies to entropy accumulation; the i.i.d. estimate certifies the pair string");
-            }
-            None
-        }
-    };
-    let keep = prot.map_or(Keep::Pairs, |p| p.keep);
-    // The level of the record checks: the certificate's own error level.
-    let level = match &prot {
-        Some(p) => p.eps_ea(),
-        None => r.eps_est.unwrap_or(1e-6),
-    };
+    let run = resolve_run(&r, mode)?;
+    let (n, gamma, keep) = (run.n_rounds, run.gamma, run.keep);
+    let prot = run.protocol().copied();
 
     // Outputs are checked before the record is read: never an input, never
     // each other, never a file that is not an earlier output of the same
@@ -808,204 +783,21 @@ pub fn certify_record(args: &CertifyArgs, show: bool) -> Result<(ExitCode, serde
     info.wins = Some(summary.wins);
     info.pair_counts = summary.has_pair_counts.then_some(summary.pair_counts);
     // On any error below the raw output's writer is dropped with nothing
-    // renamed into place.
-    // The record must be one the protocol could have produced (issue 14,
-    // items 1 and 2): refuse, and write nothing, otherwise.
-    let range = match summary.check_protocol(gamma, level) {
-        Ok(range) => range,
-        Err(e) => {
-            return Err(e.into());
-        }
-    };
-
-    // The figure.
-    let d_pub_of = |s: &Summary| sluice::certify::eat::disclosure_charge(&public, s);
-    let mut bound_record = None;
-    let (accepted, k, eps_s, eps_cert, eps_cert_source, d_pub, terms) = match mode {
-        Mode::EntropyAccumulation => {
-            let prot = prot.unwrap();
-            if let Err(e) = sluice::certify::check_win_fraction(summary.wins, summary.n_test) {
-                return Err(e.into());
-            }
-            let acc = prot.acceptance();
-            let keep_charge = match keep {
-                Keep::Pairs => 0,
-                Keep::Alice => summary.n_test,
-            };
-            let d_pub = d_pub_of(&summary);
-            let charges = (d_pub + keep_charge) as f64;
-            let (accepted, bits, t) = match prot.bound {
-                Bound::First(p) => {
-                    let res = match eat_certify(&p, &summary, &public) {
-                        Ok(r) => r,
-                        Err(e) => {
-                            return Err(e.into());
-                        }
-                    };
-                    let bits = if res.accepted && res.w_t > 0.0 {
-                        figure(res.bound_bits, charges)
-                    } else {
-                        0
-                    };
-                    let zero = if bits > 0 {
-                        None
-                    } else if !res.accepted {
-                        Some(ZeroReason::Aborted.text().to_string())
-                    } else {
-                        Some(
-                            res.zero_reason
-                                .unwrap_or(ZeroReason::ChargesExceedBound)
-                                .text()
-                                .to_string(),
-                        )
-                    };
-                    bound_record = Some(BoundRecord {
-                        name: BOUND_FIRST.into(),
-                        keep,
-                        test: acc,
-                        tangent_point: res.w_t,
-                        alpha: None,
-                        ceiling_k: (res.w_t > 0.0).then_some(res.k),
-                        keep_charge_bits: keep_charge,
-                        terms: None,
-                    });
-                    (
-                        res.accepted,
-                        bits,
-                        ResultTerms {
-                            bound_bits: res.bound_bits,
-                            first_order_bits: Some(res.first_order_bits),
-                            second_order_bits: Some(res.second_order_bits),
-                            tangent_point: (res.w_t > 0.0).then_some(res.w_t),
-                            ceiling_k: (res.w_t > 0.0).then_some(res.k),
-                            margin_bits: MARGIN_BITS,
-                            completeness_error: Some(acc.completeness + level),
-                            win_lower_bound: None,
-                            zero_reason: zero,
-                        },
-                    )
-                }
-                Bound::Improved(p) => {
-                    let accepted = acc.accepts(summary.wins, summary.n_test);
-                    let opt = improved_optimise(&p);
-                    let bits = match (&opt, accepted) {
-                        (Some(t), true) => figure(t.bound_bits, charges),
-                        _ => 0,
-                    };
-                    let zero = if bits > 0 {
-                        None
-                    } else if !accepted {
-                        Some(ZeroReason::Aborted.text().to_string())
-                    } else if opt.is_none() {
-                        Some(ZeroReason::ThresholdNotAboveClassical.text().to_string())
-                    } else if opt.is_some_and(|t| t.bound_bits <= 0.0) {
-                        Some(ZeroReason::SecondOrderExceedsFirstOrder.text().to_string())
-                    } else {
-                        Some(ZeroReason::ChargesExceedBound.text().to_string())
-                    };
-                    bound_record = Some(BoundRecord {
-                        name: BOUND_IMPROVED.into(),
-                        keep,
-                        test: acc,
-                        tangent_point: opt.map_or(0.0, |t| t.w_t),
-                        alpha: opt.map(|t| t.alpha),
-                        ceiling_k: None,
-                        keep_charge_bits: keep_charge,
-                        terms: opt,
-                    });
-                    (
-                        accepted,
-                        bits,
-                        ResultTerms {
-                            bound_bits: opt.map_or(0.0, |t| t.bound_bits),
-                            first_order_bits: opt.map(|t| t.first_order_bits),
-                            second_order_bits: opt.map(|t| {
-                                t.second_order_bits + t.eps_term_bits + t.third_order_bits
-                            }),
-                            tangent_point: opt.map(|t| t.w_t),
-                            ceiling_k: None,
-                            margin_bits: MARGIN_BITS,
-                            completeness_error: Some(acc.completeness + level),
-                            win_lower_bound: None,
-                            zero_reason: zero,
-                        },
-                    )
-                }
-            };
-            (
-                accepted,
-                bits,
-                prot.eps_s(),
-                prot.eps_ea(),
-                "eps_EA",
-                d_pub,
-                t,
-            )
-        }
-        Mode::IidEstimate => {
-            let eps_est = r.eps_est.unwrap();
-            let d_pub = d_pub_of(&summary);
-            let (bits, w_l) = match iid_estimate(n, summary.n_test, summary.wins, eps_est, d_pub) {
-                Ok(v) => v,
-                Err(e) => {
-                    return Err(e.into());
-                }
-            };
-            let bound = bits + d_pub as f64;
-            let k = if bits > 0.0 { bits.floor() as u64 } else { 0 };
-            let zero = (k == 0).then(|| {
-                if bound <= 0.0 {
-                    "the lower confidence bound on the win probability does not exceed 3/4"
-                        .to_string()
-                } else {
-                    "the charge for published statistics exceeds the bound".to_string()
-                }
-            });
-            let terms = ResultTerms {
-                bound_bits: bound,
-                first_order_bits: None,
-                second_order_bits: None,
-                tangent_point: None,
-                ceiling_k: None,
-                margin_bits: 0.0,
-                completeness_error: None,
-                win_lower_bound: Some(w_l),
-                zero_reason: zero,
-            };
-            (true, k, 0.0, eps_est, "eps_est", d_pub, terms)
-        }
-    };
-
-    let mut labels = vec![setup.label().to_string()];
-    if mode == Mode::IidEstimate {
-        labels.push(IID_LABEL.to_string());
-    }
-    if args.record.is_none() {
-        labels.push(COUNTS_LABEL.into());
-    }
-    for w in &summary.input_warnings {
-        labels.push(format!("warning: {w}"));
-    }
-    let public_values = PublicValues {
-        wins: public.contains(&PublicStat::Wins).then_some(summary.wins),
-        s_hat: if public.contains(&PublicStat::SHat) {
-            summary.s_hat
-        } else {
-            None
-        },
-        pair_counts: public
-            .iter()
-            .filter_map(|p| match *p {
-                PublicStat::PairCount(x, y) => Some([
-                    x as u64,
-                    y as u64,
-                    summary.pair_counts[x as usize][y as usize],
-                    summary.same_counts[x as usize][y as usize],
-                ]),
-                _ => None,
-            })
-            .collect(),
-    };
+    // renamed into place. The record must be one the protocol could have
+    // produced (issue 14, items 1 and 2): refused, and nothing written,
+    // otherwise.
+    let c = certify_run(&run, &summary, &public)?;
+    let (accepted, k, eps_s, eps_cert, eps_cert_source, d_pub) = (
+        c.accepted,
+        c.min_entropy_bits,
+        c.eps_s,
+        c.eps_cert,
+        c.eps_cert_source,
+        c.disclosure_charge_bits,
+    );
+    let terms = &c.terms;
+    let labels = labels(setup, mode, args.record.is_none(), &summary.input_warnings);
+    let public_values = public_values(&public, &summary);
 
     // Files: the raw output only on acceptance; the certificate always
     // (an aborted run's certificate says 0 bits and "accepted": false).
@@ -1072,12 +864,8 @@ pub fn certify_record(args: &CertifyArgs, show: bool) -> Result<(ExitCode, serde
             record: info.clone(),
             result: terms.clone(),
             tool: format!("sluice {}", env!("CARGO_PKG_VERSION")),
-            bound: bound_record.clone(),
-            checks: Some(ChecksRecord {
-                level,
-                test_rounds_range: [range.0, range.1],
-                inputs_checked: summary.has_pair_counts,
-            }),
+            bound: c.bound.clone(),
+            checks: Some(c.checks.clone()),
         };
         cert.validate()
             .map_err(|e| anyhow!("internal error, certificate does not validate: {e}"))?;
@@ -1100,7 +888,7 @@ pub fn certify_record(args: &CertifyArgs, show: bool) -> Result<(ExitCode, serde
     let report = CertifyReport {
         kind: "certify",
         accepted,
-        bound: bound_record.as_ref(),
+        bound: c.bound.as_ref(),
         string_bits: keep.string_bits(n),
         layout: match keep {
             Keep::Pairs => PAIR_LAYOUT,
@@ -1117,7 +905,7 @@ pub fn certify_record(args: &CertifyArgs, show: bool) -> Result<(ExitCode, serde
         public_statistics: public.iter().map(|p| p.name()).collect(),
         public_values: &public_values,
         disclosure_charge_bits: d_pub,
-        result: &terms,
+        result: terms,
         warnings: &summary.input_warnings,
         parameters_file: r.from_file.as_ref().map(|(p, _)| p.display().to_string()),
         certificate_file,

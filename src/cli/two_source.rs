@@ -184,17 +184,30 @@ pub struct PlanTwoSource {
 }
 
 #[derive(serde::Serialize)]
-struct PlanMode {
+struct PlanMode<'a> {
     label: &'static str,
     output_bits: Option<u64>,
     eps_extractor: Option<f64>,
     eps_total: Option<f64>,
-    eps_total_rounded_up: Option<String>,
+    eps_total_rounded_up: Option<&'a str>,
     refused: Option<String>,
 }
 
+impl<'a> PlanMode<'a> {
+    fn of(p: &'a sluice::plan::two_source::ModePlan) -> Self {
+        PlanMode {
+            label: p.label,
+            output_bits: p.output_bits,
+            eps_extractor: p.eps_extractor,
+            eps_total: p.eps_total,
+            eps_total_rounded_up: p.eps_total_rounded_up.as_deref(),
+            refused: p.refused.as_ref().map(plan_message),
+        }
+    }
+}
+
 #[derive(serde::Serialize)]
-struct PlanJson {
+struct PlanJson<'a> {
     raw_bits: u64,
     n: u64,
     dropped_bits: u64,
@@ -206,9 +219,9 @@ struct PlanJson {
     cert_error: f64,
     target_error: f64,
     eps_extractor_budget: f64,
-    classical: PlanMode,
-    markov_unverified: Option<PlanMode>,
-    assumed_conditions: Vec<&'static str>,
+    classical: PlanMode<'a>,
+    markov_unverified: Option<PlanMode<'a>>,
+    assumed_conditions: &'a [&'static str],
     cautions: Vec<&'static str>,
 }
 
@@ -216,19 +229,67 @@ fn field_option(field: &str) -> &'static str {
     match field {
         "k1" => "--min-entropy",
         "k2" => "--second-min-entropy",
+        "k1_rate" => "--min-entropy-rate",
+        "k2_rate" => "--second-min-entropy-rate",
         "eps" => "--target-error",
         "eps_s_x" | "eps_s" => "--smoothing",
         "eps_s_y" => "--second-smoothing",
-        "n" => "--input-bits",
+        "eps_cert" => "--cert-error",
+        "n" | "raw_bits" => "--input-bits",
         _ => "plan --two-source",
     }
 }
 
-fn plan_err(e: sluice::plan::Error) -> anyhow::Error {
-    anyhow::anyhow!("{}: {e}", field_option(e.field()))
+/// A planning error in the words of the command line (its options).
+fn plan_message(e: &sluice::plan::Error) -> String {
+    use sluice::plan::ErrorKind as K;
+    let opt = field_option(e.field());
+    match (e.field(), e.kind()) {
+        ("raw_bits", K::Missing { .. }) => {
+            "--input-bits: give the length of each raw string in bits".into()
+        }
+        ("eps", K::Missing { .. }) => {
+            "--target-error: give the total error allowed (for example 1e-9)".into()
+        }
+        ("k1", K::Missing { .. }) => {
+            "--two-source: give --min-entropy or --min-entropy-rate of the first source".into()
+        }
+        ("k2", K::Missing { .. }) => "--two-source: give --second-min-entropy or --second-min-entropy-rate of the second source".into(),
+        ("error_terms", K::Missing { inputs }) => {
+            let missing: Vec<&str> = inputs.iter().map(|f| field_option(f)).collect();
+            format!(
+                "{} missing: refused: the two min-entropy figures typed in need their error terms. Rule: every error term enters the total; none is taken as 0 silently. What to do: give the smoothing parameter of each source's figure and the certification's failure term (--smoothing EPS_X --second-smoothing EPS_Y --cert-error EPS_C), or an explicit 0 for an exact claim that cannot fail",
+                missing.join(", ")
+            )
+        }
+        ("k1_rate" | "k2_rate", K::OutOfRange { value, .. }) => format!(
+            "{opt}: {value} is not a rate; it must lie between 0 and 1 (bits of min-entropy per raw bit)"
+        ),
+        (_, K::EntropyOutOfRange { k, n }) => {
+            format!("{opt} = {k}: must lie between 0 and the raw length {n} bits")
+        }
+        ("raw_bits", K::InvalidLength { n, .. }) => format!(
+            "--input-bits {n}: no valid two-source length is at most {n} (the smallest is 3)"
+        ),
+        (
+            _,
+            K::NoExtractorBudget {
+                target,
+                cert_error,
+                smoothing_charge,
+            },
+        ) => format!(
+            "--target-error {target:e}: nothing is left for the extractor after the certification error {cert_error:e} and the smoothing charge 2 (eps_s,X + eps_s,Y) = {smoothing_charge:e}"
+        ),
+        ("eps_s", K::NotAsserted { .. }) => {
+            format!("{opt}: {e}; pass --accept-markov-smoothing to accept it as an assumption")
+        }
+        _ => format!("{opt}: {e}"),
+    }
 }
 
-/// Runs `sluice plan --two-source`.
+/// Runs `sluice plan --two-source`: maps the options to the library's
+/// input, plans there, and prints.
 pub fn run_plan(
     t: &PlanTwoSource,
     raw: Option<u64>,
@@ -247,126 +308,29 @@ pub fn run_plan(
     if sec.seed_deficiency != 0.0 {
         bail!("--seed-deficiency does not apply to --two-source: it has no seed");
     }
-    let raw = raw.ok_or_else(|| {
-        anyhow::anyhow!("--input-bits: give the length of each raw string in bits")
-    })?;
-    let Some(target) = sec.target_error else {
-        bail!("--target-error: give the total error allowed (for example 1e-9)");
+    let input = ts::PlanInput {
+        raw_bits: raw,
+        k1: sec.min_entropy,
+        k1_rate: sec.min_entropy_rate,
+        k2: t.second_min_entropy,
+        k2_rate: t.second_min_entropy_rate,
+        smoothing_x: sec.smoothing,
+        smoothing_y: t.second_smoothing,
+        cert_error: sec.cert_error,
+        target_error: sec.target_error,
+        markov_unverified: t.markov_unverified,
+        accept_markov_smoothing: t.accept_markov_smoothing,
     };
-    let rate = |flag: &str, r: f64| -> anyhow::Result<f64> {
-        if !(0.0..=1.0).contains(&r) {
-            bail!("{flag}: {r} is not a rate; it must lie between 0 and 1 (bits of min-entropy per raw bit)");
-        }
-        Ok(r * raw as f64)
-    };
-    let k1_raw = match (sec.min_entropy, sec.min_entropy_rate) {
-        (Some(k), _) => k,
-        (None, Some(r)) => rate("--min-entropy-rate", r)?,
-        (None, None) => {
-            bail!("--two-source: give --min-entropy or --min-entropy-rate of the first source")
-        }
-    };
-    let k2_raw = match (t.second_min_entropy, t.second_min_entropy_rate) {
-        (Some(k), _) => k,
-        (None, Some(r)) => rate("--second-min-entropy-rate", r)?,
-        (None, None) => bail!("--two-source: give --second-min-entropy or --second-min-entropy-rate of the second source"),
-    };
-    for (flag, k) in [("--min-entropy", k1_raw), ("--second-min-entropy", k2_raw)] {
-        if !k.is_finite() || k < 0.0 || k > raw as f64 {
-            bail!("{flag} = {k}: must lie between 0 and the raw length {raw} bits");
-        }
-    }
-    // Hashing spec 6.1: keep bits 0 .. n-1, lower each bound by raw - n.
-    let n = ts::largest_n(raw).ok_or_else(|| {
-        anyhow::anyhow!(
-            "--input-bits {raw}: no valid two-source length is at most {raw} (the smallest is 3)"
-        )
-    })?;
-    let dropped = raw - n;
-    let k1 = ts::truncate_entropy(k1_raw, dropped);
-    let k2 = ts::truncate_entropy(k2_raw, dropped);
-    // Every error term enters the total; none is taken as 0 silently (an
-    // explicit 0 is allowed for an exact claim that cannot fail).
-    let missing: Vec<&str> = [
-        ("--smoothing", sec.smoothing.is_none()),
-        ("--second-smoothing", t.second_smoothing.is_none()),
-        ("--cert-error", sec.cert_error.is_none()),
-    ]
-    .iter()
-    .filter(|(_, m)| *m)
-    .map(|(f, _)| *f)
-    .collect();
-    let (Some(eps_sx), Some(eps_sy), Some(eps_cert)) =
-        (sec.smoothing, t.second_smoothing, sec.cert_error)
-    else {
-        bail!(
-            "{} missing: refused: the two min-entropy figures typed in need their error terms. Rule: every error term enters the total; none is taken as 0 silently. What to do: give the smoothing parameter of each source's figure and the certification's failure term (--smoothing EPS_X --second-smoothing EPS_Y --cert-error EPS_C), or an explicit 0 for an exact claim that cannot fail",
-            missing.join(", ")
-        );
-    };
-    let charge = ts::smoothing_charge(eps_sx, eps_sy, false, false).map_err(plan_err)?;
-    let budget = target - eps_cert - charge;
-    if budget.is_nan() || budget <= 0.0 {
-        bail!("--target-error {target:e}: nothing is left for the extractor after the certification error {eps_cert:e} and the smoothing charge 2 (eps_s,X + eps_s,Y) = {charge:e}");
-    }
-    let mode = |label: &'static str,
-                m: Result<u64, sluice::plan::Error>,
-                eps: &dyn Fn(u64) -> f64| match m {
-        Ok(m) => {
-            let e = eps(m);
-            let total = eps_cert + charge + e;
-            PlanMode {
-                label,
-                output_bits: Some(m),
-                eps_extractor: Some(e),
-                eps_total: Some(total),
-                eps_total_rounded_up: Some(up4(total)),
-                refused: None,
-            }
-        }
-        Err(e) => PlanMode {
-            label,
-            output_bits: None,
-            eps_extractor: None,
-            eps_total: None,
-            eps_total_rounded_up: None,
-            refused: Some(plan_err(e).to_string()),
-        },
-    };
-    let classical = mode(
-        ts::CLASSICAL_LABEL,
-        ts::max_m_classical(n, k1, k2, budget),
-        &|m| ts::eps_classical(n, k1, k2, m),
+    let p = ts::plan(&input).map_err(|e| anyhow::anyhow!("{}", plan_message(&e)))?;
+    let classical = PlanMode::of(&p.classical);
+    let markov = p.markov_unverified.as_ref().map(PlanMode::of);
+    let (raw, n, dropped, k1, k2) = (p.raw_bits, p.n, p.dropped_bits, p.k1, p.k2);
+    let (charge, eps_cert, target, budget) = (
+        p.smoothing_charge,
+        p.cert_error,
+        p.target_error,
+        p.eps_extractor_budget,
     );
-    let markov = if t.markov_unverified {
-        if (eps_sx > 0.0 || eps_sy > 0.0) && !t.accept_markov_smoothing {
-            ts::smoothing_charge(eps_sx, eps_sy, true, false).map_err(|e| {
-                anyhow::anyhow!(
-                    "{}: {e}; pass --accept-markov-smoothing to accept it as an assumption",
-                    field_option(e.field())
-                )
-            })?;
-        }
-        Some(mode(
-            ts::MARKOV_LABEL,
-            ts::max_m_markov_unverified(n, k1, k2, budget, true),
-            &|m| ts::eps_markov_unverified(n, k1, k2, m, true).unwrap_or(f64::INFINITY),
-        ))
-    } else {
-        None
-    };
-    let mut assumed = vec![
-        "the two sources are independent, also given any classical side information (hashing spec 6.3)",
-        "each min-entropy figure holds for its source's raw string, given the side information",
-    ];
-    if t.markov_unverified {
-        assumed.push("Markov mode only: the sources are independent given the adversary's quantum side information (asserted by you; sluice cannot check it)");
-        if t.accept_markov_smoothing && (eps_sx > 0.0 || eps_sy > 0.0) {
-            assumed.push("Markov mode only: the smoothing charge 2 (eps_s,X + eps_s,Y) holds in the Markov model (accepted by you; hashing spec 6.4 item 3)");
-        }
-    }
-    let ok = classical.output_bits.is_some();
-    let refusal = classical.refused.clone();
     if json {
         common::print_json(&PlanJson {
             raw_bits: raw,
@@ -374,15 +338,15 @@ pub fn run_plan(
             dropped_bits: dropped,
             k1,
             k2,
-            smoothing_x: eps_sx,
-            smoothing_y: eps_sy,
+            smoothing_x: p.smoothing_x,
+            smoothing_y: p.smoothing_y,
             smoothing_charge: charge,
             cert_error: eps_cert,
             target_error: target,
             eps_extractor_budget: budget,
             classical,
             markov_unverified: markov,
-            assumed_conditions: assumed,
+            assumed_conditions: &p.assumed_conditions,
             cautions: if quiet {
                 Vec::new()
             } else {
@@ -402,22 +366,22 @@ pub fn run_plan(
              target total error {target:e}, left for the extractor {budget:e}"
         )?;
         writeln!(out)?;
-        for p in std::iter::once(&classical).chain(markov.as_ref()) {
-            match (p.output_bits, &p.refused) {
-                (Some(m), _) => writeln!(
+        for m in std::iter::once(&classical).chain(markov.as_ref()) {
+            match (m.output_bits, &m.refused) {
+                (Some(bits), _) => writeln!(
                     out,
-                    "{}: m = {m} bits, extractor error {}, total error {}",
-                    p.label,
-                    up4(p.eps_extractor.unwrap_or(f64::NAN)),
-                    p.eps_total_rounded_up.as_deref().unwrap_or("-")
+                    "{}: m = {bits} bits, extractor error {}, total error {}",
+                    m.label,
+                    up4(m.eps_extractor.unwrap_or(f64::NAN)),
+                    m.eps_total_rounded_up.unwrap_or("-")
                 )?,
-                (None, Some(e)) => writeln!(out, "{}: no output: {e}", p.label)?,
+                (None, Some(e)) => writeln!(out, "{}: no output: {e}", m.label)?,
                 (None, None) => {}
             }
         }
         writeln!(out)?;
         writeln!(out, "Total error = eps_cert + 2 (eps_s,X + eps_s,Y) + eps_2src, rounded up; eps_2src = 2^(-(k1 + k2 - n - m + 1)/2) (classical).")?;
-        for a in &assumed {
+        for a in &p.assumed_conditions {
             writeln!(out, "Assumed: {a}.")?;
         }
         drop(out);
@@ -429,10 +393,9 @@ pub fn run_plan(
             }
         }
     }
-    match refusal {
-        None if ok => Ok(ExitCode::SUCCESS),
-        Some(e) => Err(anyhow::anyhow!("{e}")),
-        None => Err(anyhow::anyhow!("no output")),
+    match p.classical.refused {
+        None => Ok(ExitCode::SUCCESS),
+        Some(e) => Err(anyhow::anyhow!("{}", plan_message(&e))),
     }
 }
 

@@ -96,6 +96,31 @@ pub enum ErrorKind {
         /// What overflowed, in words.
         what: &'static str,
     },
+    /// Inputs the plan needs that were not given (by the names the
+    /// planner gives them, e.g. `eps_s_x`): no input is taken as 0 or
+    /// guessed silently.
+    Missing {
+        /// The inputs not given.
+        inputs: Vec<&'static str>,
+    },
+    /// A min-entropy figure outside `[0, n]` for a raw string of `n` bits
+    /// (also a negative or non-finite one).
+    EntropyOutOfRange {
+        /// The figure given.
+        k: f64,
+        /// The raw length.
+        n: u64,
+    },
+    /// The error target leaves nothing for the extractor once the
+    /// certification error and the smoothing charge are paid.
+    NoExtractorBudget {
+        /// The total target.
+        target: f64,
+        /// The certification error.
+        cert_error: f64,
+        /// The smoothing charge.
+        smoothing_charge: f64,
+    },
 }
 
 impl Error {
@@ -164,8 +189,31 @@ impl fmt::Display for Error {
                  block and gives no bound per block, so it cannot be split into blocks"
             ),
             ErrorKind::TooLarge { what } => write!(f, "{field}: {what} is too large"),
+            ErrorKind::Missing { inputs } => {
+                write!(f, "{field}: not given: {}", inputs.join(", "))
+            }
+            ErrorKind::EntropyOutOfRange { k, n } => write!(
+                f,
+                "{field} = {k}: must lie between 0 and the raw length {n} bits"
+            ),
+            ErrorKind::NoExtractorBudget {
+                target,
+                cert_error,
+                smoothing_charge,
+            } => write!(
+                f,
+                "{field} = {target:e}: nothing is left for the extractor after the \
+                 certification error {cert_error:e} and the smoothing charge {smoothing_charge:e}"
+            ),
         }
     }
 }
 
 impl std::error::Error for Error {}
+
+/// An error serializes as its message.
+impl serde::Serialize for Error {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.collect_str(self)
+    }
+}
