@@ -185,13 +185,15 @@ pub fn run(a: DemoArgs) -> anyhow::Result<ExitCode> {
     let mut steps: Vec<Step> = Vec::new();
 
     // 1. The parameters, fixed before the run, as `certify --plan` writes them.
-    let mut d = sluice::certify::params::Declared::default();
-    d.rounds = Some(ROUNDS);
-    d.gamma = Some(GAMMA);
-    d.w_exp = Some(WIN);
-    d.eps_c = Some(COMPLETENESS);
-    d.eps_s = Some(SMOOTHING);
-    d.eps_ea = Some(ACCEPTANCE);
+    let d = sluice::certify::params::Declared {
+        rounds: Some(ROUNDS),
+        gamma: Some(GAMMA),
+        w_exp: Some(WIN),
+        eps_c: Some(COMPLETENESS),
+        eps_s: Some(SMOOTHING),
+        eps_ea: Some(ACCEPTANCE),
+        ..Default::default()
+    };
     let plan_cert = plan_improved(&d, protocol(&d, true)?)?;
     let row = &plan_cert.rows[plan_cert.chosen];
     sluice::files::atomic::write_all(
