@@ -749,6 +749,24 @@ impl Run<'_> {
         // The input's data digest (of all `total` bits) from the words the
         // run reads, as far as its first pass reads them in order.
         let mut input = DigestingSource::new(&mut file, total);
+        if family == Family::ModifiedToeplitz {
+            // The run reads the tail (bits m .. n) first and adds the head
+            // (bits 0 .. m) at the end. Reading the head's whole words in
+            // order now lets the digest run through them and on into the
+            // tail pass, so the input is read again only for the head
+            // (m bits), not in full by `finish`.
+            use crate::bits::source::BitSource;
+            let head_words = m / 64;
+            let mut buf = vec![0u64; HEAD_READ_WORDS];
+            let mut w = 0u64;
+            while w < head_words {
+                let k = (head_words - w).min(HEAD_READ_WORDS as u64) as usize;
+                input
+                    .read_words(w, &mut buf[..k])
+                    .map_err(|e| Error::Input(BitsError::from(e).in_file(path)))?;
+                w += k as u64;
+            }
+        }
         // The seed: from memory, or streamed from its file. A streamed
         // seed's data digest comes from the words the run reads in order
         // (the in-memory layout reads it whole from its start) and, for
@@ -865,6 +883,10 @@ pub(crate) fn whole_run_plan_of(
         .map_err(Error::from),
     )
 }
+
+/// Words per read while a modified Toeplitz whole run reads its head ahead
+/// for the digest (256 KiB, within the read buffers the memory plan counts).
+const HEAD_READ_WORDS: usize = 1 << 15;
 
 /// A bit source that feeds the data digest (`spec/conventions.md`) of a
 /// string of `total` bits from the words read through it: a read that
