@@ -375,7 +375,7 @@ impl Certificate {
             return Err(invalid(
                 "disclosure_charge_bits",
                 format!(
-                    "{} bits, but publishing {} costs {d_min} bits (spec 3.9)",
+                    "{} bits, but publishing {} costs {d_min} bits (see README, \"From a Bell-test record to extracted bits\")",
                     self.disclosure_charge_bits,
                     self.public_statistics
                         .iter()
@@ -711,7 +711,7 @@ impl Certificate {
                     return Err(invalid(
                         "eps_s",
                         format!(
-                            "{}: the i.i.d. estimate has eps_s = 0 (hashing spec 5)",
+                            "{}: the i.i.d. estimate has eps_s = 0 (its failure probability is eps_cert)",
                             self.eps_s
                         ),
                     ));

@@ -50,7 +50,7 @@ impl EatParams {
             return Err(Error::bad_parameter(
                 "rounds",
                 0,
-                "N_rounds must be at least 1 (spec 8)",
+                "N_rounds must be at least 1",
             ));
         }
         check_gamma(self.gamma)?;

@@ -281,7 +281,7 @@ impl ImprovedParams {
             return Err(Error::bad_parameter(
                 "rounds",
                 0,
-                "N_rounds must be at least 1 (spec 8)",
+                "N_rounds must be at least 1",
             ));
         }
         check_gamma(self.gamma)?;

@@ -161,7 +161,7 @@ pub(crate) fn check_eps(name: &str, eps: f64) -> Result<(), Error> {
         Err(Error::bad_parameter(
             name,
             eps,
-            "an error parameter must lie strictly between 0 and 1 (spec 8)",
+            "an error parameter must lie strictly between 0 and 1",
         ))
     }
 }
@@ -174,7 +174,7 @@ pub(crate) fn check_gamma(gamma: f64) -> Result<(), Error> {
         Err(Error::bad_parameter(
             "gamma",
             gamma,
-            "the test probability gamma must satisfy 0 < gamma <= 1 (spec 8)",
+            "the test probability gamma must satisfy 0 < gamma <= 1",
         ))
     }
 }

@@ -145,7 +145,7 @@ pub fn protocol(d: &Declared, plan: bool) -> Result<Option<Protocol>, Error> {
         }
         if d.tail.as_deref().is_some_and(|t| t != "hoeffding") {
             return Err(protocol_error(
-                "--tail: the first-2016 bound derives its tolerance with hoeffding (spec 3.5)",
+                "--tail: the first-2016 bound derives its tolerance with hoeffding (Hoeffding 1963)",
             ));
         }
         let delta = first_delta(
@@ -436,7 +436,7 @@ impl ImprovedPlan {
 /// parameters with the tolerance resolved, and the figure.
 pub fn plan_first(d: &Declared) -> Result<(EatParams, EatResult), Error> {
     if d.keep.as_deref() == Some("alice") {
-        return Err(protocol_error("--keep alice: --plan computes the Alice-only figure with --bound improved-2019 (the first-2016 plan covers the pair string of spec 3.8)"));
+        return Err(protocol_error("--keep alice: --plan computes the Alice-only figure with --bound improved-2019 (the first-2016 plan covers the pair string a1 b1 .. aN bN)"));
     }
     let n = need(d.rounds, "rounds")?;
     let gamma = need(d.gamma, "test-probability")?;

@@ -188,11 +188,11 @@ pub struct LedgerUse {
     #[arg(long, value_name = "DIR")]
     pub ledger: Option<PathBuf>,
     /// Extract again from raw data already used, for this reason (recorded;
-    /// hashing spec 4.6)
+    /// README, "Seeds and the ledger")
     #[arg(long = "repeat-reason", value_name = "TEXT")]
     pub repeat_reason: Option<String>,
     /// Assert that the certificate conditions on the raw outputs of the
-    /// earlier runs with this seed (hashing spec 4.1 rule 3; recorded)
+    /// earlier runs with this seed (README, "Seeds and the ledger"; recorded)
     #[arg(long = "assert-cross-run-condition")]
     pub cross_run: bool,
 }

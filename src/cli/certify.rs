@@ -981,7 +981,7 @@ fn print_text(
             "bound: {} ({}); string kept: {}",
             p.name(),
             match p.bound {
-                Bound::First(_) => "first entropy accumulation theorem, spec 3",
+                Bound::First(_) => "first entropy accumulation theorem, Dupuis-Fawzi-Renner 2016",
                 Bound::Improved(_) =>
                     "entropy accumulation with improved second-order term, Dupuis-Fawzi 2019",
             },

@@ -388,7 +388,7 @@ pub fn run_extract(a: ExtractArgs) -> anyhow::Result<ExitCode> {
                 );
             }
             if lu.cross_run {
-                eprintln!("asserted: the certificate conditions on the earlier runs' raw outputs (hashing spec 4.1 rule 3)");
+                eprintln!("asserted: the certificate conditions on the earlier runs' raw outputs (README, \"Seeds and the ledger\")");
             }
         }
         return Ok(ExitCode::SUCCESS);

@@ -39,7 +39,7 @@ enum Cmd {
     Import {
         /// The seed file
         file: PathBuf,
-        /// Declared min-entropy deficiency s in bits (hashing spec 4.4)
+        /// Declared min-entropy deficiency s in bits (README, "Seeds and the ledger")
         #[arg(long, value_name = "S")]
         deficiency: f64,
         /// Where the seed came from (free text, recorded)
@@ -58,8 +58,8 @@ enum Cmd {
         #[arg(long)]
         json: bool,
     },
-    /// Cut a seed from the end of an earlier sluice output (hashing spec
-    /// 4.2): those bits are removed from the output file, never delivered
+    /// Cut a seed from the end of an earlier sluice output (README, "Seeds and the ledger"):
+    /// those bits are removed from the output file, never delivered
     Recycle {
         /// The earlier output (packed)
         output: PathBuf,
@@ -67,10 +67,10 @@ enum Cmd {
         #[arg(long, value_name = "N")]
         bits: usize,
         /// The earlier output's total error (its receipt's eps_total),
-        /// carried as the seed's eps_seed (hashing spec 4.7)
+        /// carried as the seed's eps_seed (README, "Seeds and the ledger")
         #[arg(long = "output-error", value_name = "EPS")]
         output_error: f64,
-        /// Assert the recycling condition of hashing spec 4.2 (recorded)
+        /// Assert the recycling condition (README, "Seeds and the ledger"; recorded)
         #[arg(long = "assert-recycling-condition")]
         assert_condition: bool,
         /// Error budget, in (0, 1) (default 1e-6)
@@ -226,7 +226,7 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
         } => {
             if !assert_condition {
                 bail!(
-                    "cutting a seed from an output needs --assert-recycling-condition: {} (hashing spec 4.2)",
+                    "cutting a seed from an output needs --assert-recycling-condition: {} (see README, \"Seeds and the ledger\")",
                     sluice::plan::compose::RECYCLING_CONDITION
                 );
             }
@@ -364,7 +364,7 @@ pub fn run(a: SeedArgs) -> anyhow::Result<ExitCode> {
                     ),
                     None => println!("recorded seed {id} as disclosed"),
                 }
-                eprintln!("caution: from now on seed {id} may only be used on raw data committed to the ledger before this disclosure (hashing spec 4.1); the output of any later use is only as good as that timing");
+                eprintln!("caution: from now on seed {id} may only be used on raw data committed to the ledger before this disclosure (README, \"Cautions\"); the output of any later use is only as good as that timing");
             }
         }
         Cmd::Budget { id, budget, json } => {

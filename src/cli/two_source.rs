@@ -141,8 +141,8 @@ pub fn run_verify(a: &VerifyArgs) -> anyhow::Result<ExitCode> {
 }
 
 /// `sluice plan --two-source`: the output length and error of the seedless
-/// two-source extractor (hashing spec 6.3; 6.4 only behind
-/// `--markov-unverified`).
+/// two-source extractor (Dodis, Elbaz, Oliveira, Raz 2004; the
+/// Markov-model figures only behind `--markov-unverified`).
 #[derive(clap::Args, Debug, Clone)]
 pub struct PlanTwoSource {
     /// Plan the seedless two-source extractor instead of the seeded ones
@@ -174,11 +174,13 @@ pub struct PlanTwoSource {
     )]
     pub second_smoothing: Option<f64>,
     /// Two-source: also show the quantum-proof (Markov model) figures, whose
-    /// constants are UNVERIFIED (hashing spec 6.4)
+    /// constants are UNVERIFIED (recalled from Arnon-Friedman, Portmann,
+    /// Scholz 2016)
     #[arg(long = "markov-unverified", requires = "two_source")]
     pub markov_unverified: bool,
     /// Two-source, Markov mode: accept the smoothing charge
-    /// 2 (eps_s,X + eps_s,Y) as an assumption (hashing spec 6.4 item 3)
+    /// 2 (eps_s,X + eps_s,Y) as an assumption (README, "Without a seed: two independent raw
+    /// sources")
     #[arg(long = "accept-markov-smoothing", requires = "markov_unverified")]
     pub accept_markov_smoothing: bool,
 }

@@ -50,7 +50,7 @@ pub enum TwoSourceError {
     /// n is not a prime with 2 as a primitive root.
     #[error(
         "two-source: n = {n} is not a valid length (it must be a prime with 2 as a primitive \
-         root modulo n; spec hashing-and-composition 6.1){}",
+         root modulo n; Dodis, Elbaz, Oliveira, Raz 2004){}",
         match .largest_below { Some(v) => format!("; the largest valid n not above {n} is {v}"), None => String::new() }
     )]
     InvalidLength {

@@ -168,7 +168,7 @@ pub enum Rule {
         new: f64,
     },
     /// The use would take the seed past its budget (4.3).
-    #[error("budget rule (hashing spec 4.3): seed {seed} has spent {spent:e} of its budget {budget:e} over {uses} use(s); this use would add {charge:e}, leaving no room; refused")]
+    #[error("budget rule (README, \"Seeds and the ledger\"): seed {seed} has spent {spent:e} of its budget {budget:e} over {uses} use(s); this use would add {charge:e}, leaving no room; refused")]
     OverBudget {
         /// Seed identifier.
         seed: String,
@@ -190,13 +190,13 @@ pub enum Rule {
         line: u64,
     },
     /// The raw data were never committed.
-    #[error("timing rule (hashing spec 4.1, 4.6): raw data {}.. were not committed to the ledger before this use; run `sluice ledger commit-raw FILE` when the data are produced", short(digest))]
+    #[error("timing rule (README, \"Seeds and the ledger\"): raw data {}.. were not committed to the ledger before this use; run `sluice ledger commit-raw FILE` when the data are produced", short(digest))]
     RawNotCommitted {
         /// Data digest.
         digest: String,
     },
     /// The raw data were committed after the seed was disclosed.
-    #[error("timing rule (hashing spec 4.1, 4.6): seed {seed} was disclosed at line {disclosed_line}, before the raw data {}.. were committed at line {raw_line}; a seed may only be used on raw data fixed before its disclosure", short(digest))]
+    #[error("timing rule (README, \"Seeds and the ledger\"): seed {seed} was disclosed at line {disclosed_line}, before the raw data {}.. were committed at line {raw_line}; a seed may only be used on raw data fixed before its disclosure", short(digest))]
     DisclosedBeforeRaw {
         /// Seed identifier.
         seed: String,
@@ -208,7 +208,7 @@ pub enum Rule {
         raw_line: u64,
     },
     /// The raw data were already extracted from.
-    #[error("one extraction per raw data (hashing spec 4.6): raw data {}.. were already used at line {line}; extracting again needs an override that names the reason (--repeat-reason TEXT, recorded)", short(digest))]
+    #[error("one extraction per raw data (README, \"Seeds and the ledger\"): raw data {}.. were already used at line {line}; extracting again needs an override that names the reason (--repeat-reason TEXT, recorded)", short(digest))]
     RawAlreadyUsed {
         /// Data digest.
         digest: String,
@@ -216,7 +216,7 @@ pub enum Rule {
         line: u64,
     },
     /// A device-independent run reusing a seed (4.1 rule 3).
-    #[error("fresh-seed rule for device-independent data (hashing spec 4.1, rule 3): seed {seed} was already used at line {line}; use a fresh seed, or assert that the certificate conditions on the earlier runs' raw outputs")]
+    #[error("fresh-seed rule for device-independent data (README, \"Seeds and the ledger\"): seed {seed} was already used at line {line}; use a fresh seed, or assert that the certificate conditions on the earlier runs' raw outputs")]
     DeviceIndependentReuse {
         /// Seed identifier.
         seed: String,

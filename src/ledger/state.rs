@@ -231,7 +231,8 @@ impl State {
                     return Err(Rule::OutOfRange {
                         field: "deficiency",
                         value: deficiency.to_string(),
-                        expected: "between 0 and the seed length (hashing spec 4.4)",
+                        expected:
+                            "between 0 and the seed length (see README, \"Seeds and the ledger\")",
                     });
                 }
                 check_unit("eps_seed", *eps_seed, false)?;
@@ -240,7 +241,7 @@ impl State {
                         field: "deficiency",
                         value: deficiency.to_string(),
                         expected:
-                            "0 for a seed described by its distance from uniform (hashing spec 4.7)",
+                            "0 for a seed described by its distance from uniform (see README, \"Seeds and the ledger\")",
                     });
                 }
                 check_unit("budget", *budget, true)?;

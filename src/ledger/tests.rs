@@ -324,7 +324,10 @@ fn device_independent_seed_is_one_run_only() {
         .append(|_| Ok::<_, Error>((vec![b.clone()], ())))
         .unwrap_err()
         .to_string();
-    assert!(e.contains("4.1, rule 3") && e.contains("line 5"), "{e}");
+    assert!(
+        e.contains("fresh-seed rule") && e.contains("Seeds and the ledger") && e.contains("line 5"),
+        "{e}"
+    );
     if let Body::UseReserved {
         cross_run_asserted, ..
     } = &mut b

@@ -135,7 +135,7 @@ pub fn resolve(job: &TwoSourceJob) -> Result<Resolved, JobError> {
         .map_err(|_| JobError::Refused("--input-bits too large for this machine".into()))?;
     if m == 0 || m >= n {
         return refuse(format!(
-            "--output-bits {m} must be in 1..={} for two sources of {n} bits (hashing spec 6.1)",
+            "--output-bits {m} must be in 1..={} for two sources of {n} bits (Dodis, Elbaz, Oliveira, Raz 2004)",
             n - 1
         ));
     }

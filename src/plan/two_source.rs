@@ -97,7 +97,7 @@ fn unverified(accept: bool) -> Result<(), Error> {
             "markov",
             ErrorKind::Unverified {
                 what: "the quantum-proof (Markov model) mode of the two-source extractor \
-                       (spec 6.4: recollection of APS16)",
+                       (recalled from Arnon-Friedman, Portmann, Scholz 2016; unverified)",
             },
         ))
     }
@@ -173,7 +173,7 @@ pub fn smoothing_charge(
             "eps_s",
             ErrorKind::NotAsserted {
                 condition: "the charge 2 (eps_s,X + eps_s,Y) holds in the Markov model \
-                            (a smoothed state need not keep I(X:Y|E) = 0; spec 6.4 item 3)",
+                            (a smoothed state need not keep I(X:Y|E) = 0; see README, \"Without a seed: two independent raw sources\")",
             },
         ));
     }
@@ -435,13 +435,13 @@ pub fn plan(input: &PlanInput) -> Result<Plan, Error> {
         None
     };
     let mut assumed = vec![
-        "the two sources are independent, also given any classical side information (hashing spec 6.3)",
+        "the two sources are independent, also given any classical side information (Dodis, Elbaz, Oliveira, Raz 2004)",
         "each min-entropy figure holds for its source's raw string, given the side information",
     ];
     if input.markov_unverified {
         assumed.push("Markov mode only: the sources are independent given the adversary's quantum side information (asserted by you; sluice cannot check it)");
         if input.accept_markov_smoothing && smoothed {
-            assumed.push("Markov mode only: the smoothing charge 2 (eps_s,X + eps_s,Y) holds in the Markov model (accepted by you; hashing spec 6.4 item 3)");
+            assumed.push("Markov mode only: the smoothing charge 2 (eps_s,X + eps_s,Y) holds in the Markov model (accepted by you; not established for the Markov model of Arnon-Friedman, Portmann, Scholz 2016)");
         }
     }
     Ok(Plan {

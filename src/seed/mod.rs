@@ -74,10 +74,10 @@ pub enum Error {
     /// Recycling without the assertion of 4.2.
     /// (The condition's text is `plan::compose::RECYCLING_CONDITION`; the
     /// caller shows it where the assertion is asked for.)
-    #[error("a seed cut from an earlier output needs the recycling assertion (hashing spec 4.2)")]
+    #[error("a seed cut from an earlier output needs the recycling assertion (see README, \"Seeds and the ledger\")")]
     NotAsserted,
     /// The bits are already registered (or overlap a registered seed).
-    #[error("these seed bits are already registered as seed {seed} (created at line {line}){how}; registering them again would let their uses escape that seed's budget (hashing spec 4.3); refused")]
+    #[error("these seed bits are already registered as seed {seed} (created at line {line}){how}; registering them again would let their uses escape that seed's budget (see README, \"Seeds and the ledger\"); refused")]
     AlreadyRegistered {
         /// The registered seed.
         seed: String,
@@ -615,7 +615,11 @@ mod tests {
                 1e-6,
             )
             .unwrap_err();
-        assert!(e.to_string().contains("4.2"), "{e}");
+        assert!(
+            e.to_string().contains("recycling assertion")
+                && e.to_string().contains("Seeds and the ledger"),
+            "{e}"
+        );
         for b in [0.0, 1.0, -1e-3, f64::NAN] {
             assert!(store.register(&bits, Origin::Os, b).is_err());
         }
