@@ -20,16 +20,7 @@ fn use_after_disclosure_is_refused_naming_the_rule_and_lines() {
     let l = dir.path().join("L");
     let mut rng = Rng(7);
     let early = raw_file(dir.path(), "early.bin", &mut rng);
-    ok(
-        &l,
-        &[
-            "ledger",
-            "commit-raw",
-            early.to_str().unwrap(),
-            "--origin",
-            "run 1",
-        ],
-    );
+    commit_raw(&l, &early, "run 1");
     let seed = new_seed(&l, "600", "1e-6");
     let shown = dir.path().join("seed.bin");
     ok(
@@ -38,16 +29,7 @@ fn use_after_disclosure_is_refused_naming_the_rule_and_lines() {
     );
     assert_eq!(std::fs::metadata(&shown).unwrap().len(), 75);
     let late = raw_file(dir.path(), "late.bin", &mut rng);
-    ok(
-        &l,
-        &[
-            "ledger",
-            "commit-raw",
-            late.to_str().unwrap(),
-            "--origin",
-            "run 2",
-        ],
-    );
+    commit_raw(&l, &late, "run 2");
     let out = dir.path().join("o.bin");
     let before = journal(&l);
     let e = fail(
@@ -98,16 +80,7 @@ fn same_raw_twice_needs_a_reason_which_is_recorded() {
     let l = dir.path().join("L");
     let mut rng = Rng(11);
     let raw = raw_file(dir.path(), "raw.bin", &mut rng);
-    ok(
-        &l,
-        &[
-            "ledger",
-            "commit-raw",
-            raw.to_str().unwrap(),
-            "--origin",
-            "run 1",
-        ],
-    );
+    commit_raw(&l, &raw, "run 1");
     let seed = new_seed(&l, "600", "1e-6");
     let o1 = dir.path().join("o1.bin");
     let o2 = dir.path().join("o2.bin");
@@ -169,16 +142,7 @@ fn tampered_journal_fails_verify_naming_the_line() {
     let mut rng = Rng(13);
     for i in 0..3 {
         let raw = raw_file(dir.path(), &format!("r{i}.bin"), &mut rng);
-        ok(
-            &l,
-            &[
-                "ledger",
-                "commit-raw",
-                raw.to_str().unwrap(),
-                "--origin",
-                "bench",
-            ],
-        );
+        commit_raw(&l, &raw, "bench");
     }
     let _ = new_seed(&l, "64", "1e-6");
     let orig = journal(&l);
@@ -344,16 +308,7 @@ fn budget_only_lowered_and_retired_seed_refused() {
     ok(&l, &["seed", "retire", &seed]);
     let mut rng = Rng(19);
     let raw = raw_file(dir.path(), "raw.bin", &mut rng);
-    ok(
-        &l,
-        &[
-            "ledger",
-            "commit-raw",
-            raw.to_str().unwrap(),
-            "--origin",
-            "x",
-        ],
-    );
+    commit_raw(&l, &raw, "x");
     let out = dir.path().join("o.bin");
     let e = fail(
         &l,
@@ -470,16 +425,7 @@ fn new_seed_run_records_the_seed_and_the_receipt_names_it() {
     let l = dir.path().join("L");
     let mut rng = Rng(29);
     let raw = raw_file(dir.path(), "raw.bin", &mut rng);
-    ok(
-        &l,
-        &[
-            "ledger",
-            "commit-raw",
-            raw.to_str().unwrap(),
-            "--origin",
-            "x",
-        ],
-    );
+    commit_raw(&l, &raw, "x");
     let out = dir.path().join("o.bin");
     let v: serde_json::Value = serde_json::from_str(&ok(
         &l,
@@ -658,16 +604,7 @@ fn a_ledgered_run_reads_its_input_once() {
     let l = dir.path().join("L");
     let mut rng = Rng(23);
     let raw = raw_file(dir.path(), "raw.bin", &mut rng);
-    ok(
-        &l,
-        &[
-            "ledger",
-            "commit-raw",
-            raw.to_str().unwrap(),
-            "--origin",
-            "rig",
-        ],
-    );
+    commit_raw(&l, &raw, "rig");
     let seed = new_seed(&l, "600", "1e-6");
     let bytes = std::fs::read(&raw).unwrap();
     let (o1, o2) = (dir.path().join("o1.bin"), dir.path().join("o2.bin"));
@@ -731,16 +668,7 @@ fn verify_with_a_stored_seed_records_nothing_and_discloses_nothing() {
     let l = dir.path().join("L");
     let mut rng = Rng(29);
     let raw = raw_file(dir.path(), "raw.bin", &mut rng);
-    ok(
-        &l,
-        &[
-            "ledger",
-            "commit-raw",
-            raw.to_str().unwrap(),
-            "--origin",
-            "rig",
-        ],
-    );
+    commit_raw(&l, &raw, "rig");
     let seed = new_seed(&l, "600", "1e-6");
     let out = dir.path().join("o.bin");
     ok(
@@ -789,16 +717,7 @@ fn verify_with_a_stored_seed_records_nothing_and_discloses_nothing() {
     assert!(String::from_utf8_lossy(&o.stdout).contains("MISMATCH"));
     // The seed was not disclosed: a later run on new raw data may use it.
     assert_eq!(journal(&l), before);
-    ok(
-        &l,
-        &[
-            "ledger",
-            "commit-raw",
-            other.to_str().unwrap(),
-            "--origin",
-            "rig",
-        ],
-    );
+    commit_raw(&l, &other, "rig");
     let out2 = dir.path().join("o2.bin");
     ok(
         &l,

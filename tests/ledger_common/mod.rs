@@ -83,3 +83,17 @@ pub fn seed_state(ledger: &Path, id: &str) -> serde_json::Value {
     let out = ok(ledger, &["seed", "show", id, "--json"]);
     serde_json::from_str(&out).unwrap()
 }
+
+/// Commits a raw file to the ledger (`ledger commit-raw FILE --origin ORIGIN`).
+pub fn commit_raw(ledger: &Path, raw: &Path, origin: &str) {
+    ok(
+        ledger,
+        &[
+            "ledger",
+            "commit-raw",
+            raw.to_str().unwrap(),
+            "--origin",
+            origin,
+        ],
+    );
+}
