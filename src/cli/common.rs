@@ -225,3 +225,47 @@ pub fn write_svg(
     )?;
     Ok(())
 }
+
+/// A journal time (Unix seconds) as UTC, `YYYY-MM-DDTHH:MM:SSZ`.
+pub fn utc(secs: u64) -> String {
+    let days = (secs / 86_400) as i64;
+    let rem = secs % 86_400;
+    // Days since 1970-01-01 to a proleptic Gregorian date (the usual
+    // era-based conversion: 400-year eras of 146,097 days, years starting
+    // on 1 March so the leap day falls last).
+    let z = days + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z - era * 146_097;
+    let yoe = (doe - doe / 1_460 + doe / 36_524 - doe / 146_096) / 365;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let day = doy - (153 * mp + 2) / 5 + 1;
+    let month = if mp < 10 { mp + 3 } else { mp - 9 };
+    let year = yoe + era * 400 + i64::from(month <= 2);
+    format!(
+        "{year:04}-{month:02}-{day:02}T{:02}:{:02}:{:02}Z",
+        rem / 3600,
+        rem / 60 % 60,
+        rem % 60
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::utc;
+
+    #[test]
+    fn utc_matches_the_system_date_command() {
+        // Expected strings from GNU coreutils `date -u -d @N +%Y-%m-%dT%H:%M:%SZ`
+        // (epoch, a leap day, a non-leap century end, a date after a leap day).
+        for (t, want) in [
+            (0, "1970-01-01T00:00:00Z"),
+            (951_782_400, "2000-02-29T00:00:00Z"),
+            (1_796_509_538, "2026-12-05T22:25:38Z"),
+            (4_107_542_399, "2100-02-28T23:59:59Z"),
+            (68_256_000, "1972-03-01T00:00:00Z"),
+        ] {
+            assert_eq!(utc(t), want, "{t}");
+        }
+    }
+}

@@ -255,7 +255,12 @@ pub fn run(a: LedgerArgs) -> anyhow::Result<ExitCode> {
                 common::print_json(&recs)?;
             } else {
                 for rec in recs {
-                    println!("{:>5} {} {}", rec.seq, rec.time, describe(&rec.body));
+                    println!(
+                        "{:>5} {} {}",
+                        rec.seq,
+                        common::utc(rec.time),
+                        describe(&rec.body)
+                    );
                 }
             }
             Ok(ExitCode::SUCCESS)

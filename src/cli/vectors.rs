@@ -69,7 +69,12 @@ pub fn run(a: VectorsArgs) -> anyhow::Result<ExitCode> {
 
 fn check(dir: &Path, json: bool, max_input_bits: Option<usize>) -> anyhow::Result<ExitCode> {
     let mut files: Vec<PathBuf> = std::fs::read_dir(dir)
-        .with_context(|| format!("{}: cannot read the vector folder", dir.display()))?
+        .with_context(|| {
+            format!(
+                "{}: cannot read the vector folder (the published vectors are the `vectors/` folder of sluice's source tree: run this there, or give the folder: `sluice vectors check PATH/TO/vectors`)",
+                dir.display()
+            )
+        })?
         .filter_map(|e| e.ok().map(|e| e.path()))
         .filter(|p| p.extension().is_some_and(|x| x == "vec"))
         .collect();
